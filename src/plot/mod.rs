@@ -1,0 +1,1 @@
+//! Plots (SVG and PNG).
