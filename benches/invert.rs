@@ -1,1 +1,71 @@
-fn main() {}
+//! Criterion benchmarks of the inversion (no plotting).
+//!
+//! Spectrum: 81 points, 10 per decade from 1e-2 to 1e6 Hz, ZARC + Voigt element
+//! with 0.5 % noise (seed 1). Results: docs/performance.md.
+
+use criterion::{Criterion, criterion_group, criterion_main};
+use std::hint::black_box;
+use taumap::invert::{InvertParams, LambdaChoice, invert, problem};
+use taumap::io::Spectrum;
+use taumap::kernel::{Basis, BasisKind, ImpedanceKernel};
+use taumap::lambda::LambdaRule;
+use taumap::synth::{Element, Series, add_noise, log_frequencies};
+
+fn spectrum() -> Spectrum {
+    let cell = Series(vec![
+        Element::Resistor { r_ohm: 5.0 },
+        Element::Zarc { r_ohm: 20.0, tau_s: 1e-4, phi: 0.9 },
+        Element::Voigt { r_ohm: 30.0, tau_s: 1e-3 },
+    ]);
+    let f = log_frequencies(1e-2, 1e6, 10.0);
+    assert_eq!(f.len(), 81);
+    let (mut re, mut im) = cell.sample(&f);
+    add_noise(&mut re, &mut im, 0.005, 1);
+    Spectrum::new(f, re, im).expect("valid synthetic spectrum")
+}
+
+fn benches(c: &mut Criterion) {
+    let s = spectrum();
+    let auto = InvertParams::default();
+    c.bench_function("invert/auto_default_rule", |b| {
+        b.iter(|| invert(black_box(&s), black_box(&auto)).expect("inverts"))
+    });
+    let all = InvertParams {
+        all_curves: true,
+        ..InvertParams::default()
+    };
+    c.bench_function("invert/auto_all_rule_curves", |b| {
+        b.iter(|| invert(black_box(&s), black_box(&all)).expect("inverts"))
+    });
+    let gcv = InvertParams {
+        lambda: LambdaChoice::Rule(LambdaRule::Gcv),
+        ..InvertParams::default()
+    };
+    c.bench_function("invert/auto_gcv", |b| {
+        b.iter(|| invert(black_box(&s), black_box(&gcv)).expect("inverts"))
+    });
+    let fixed = InvertParams {
+        lambda: LambdaChoice::Fixed(1e-3),
+        ..InvertParams::default()
+    };
+    c.bench_function("invert/fixed_lambda", |b| {
+        b.iter(|| invert(black_box(&s), black_box(&fixed)).expect("inverts"))
+    });
+    let t = problem(&s, &fixed).expect("problem builds");
+    c.bench_function("solve/nnls_one_lambda", |b| {
+        b.iter(|| t.solve(black_box(1e-3), &[]))
+    });
+    let grid = taumap::grid::TauGrid::for_band(1e-2, 1e6, 10.0, 1.0).expect("grid");
+    let basis = Basis::new(BasisKind::Gaussian, &grid);
+    let omega: Vec<f64> = s
+        .frequency_hz
+        .iter()
+        .map(|f| 2.0 * std::f64::consts::PI * f)
+        .collect();
+    c.bench_function("kernel/gaussian_81x101", |b| {
+        b.iter(|| ImpedanceKernel::new(black_box(&basis), black_box(&omega)))
+    });
+}
+
+criterion_group!(invert_benches, benches);
+criterion_main!(invert_benches);

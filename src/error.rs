@@ -52,6 +52,10 @@ pub enum Error {
     /// A combination of settings that cannot work.
     #[error("{0}")]
     Config(String),
+    /// Data handed to the library directly (not read from a file) is
+    /// unusable, e.g. vectors of different lengths passed to a constructor.
+    #[error("{0}")]
+    Data(String),
     /// Drawing a plot failed.
     #[error("plot {}: {msg}", .path.display())]
     Plot {

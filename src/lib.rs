@@ -1,10 +1,59 @@
-//! taumap: distribution of relaxation times (DRT) from impedance spectra.
+//! taumap: the distribution of relaxation times (DRT) of an impedance spectrum.
+//!
+//! The model is a Fredholm integral equation of the first kind,
+//!
+//! $$ Z(\omega) = R_\infty + j\omega L + \int \frac{\gamma(\ln\tau)}{1 + j\omega\tau}\,d\ln\tau, $$
+//!
+//! with a non-negative gamma in ohm per unit ln tau. taumap discretises it on a
+//! log-spaced grid, solves the Tikhonov-regularised non-negative least-squares
+//! problem with an exact active-set solver, chooses the regularisation
+//! parameter automatically, and reports peaks with their resistances.
+//!
+//! # Module map
+//! - [`io`]: CSV readers (line-aware errors) and atomic output writing.
+//! - [`grid`]: the log-spaced tau grid.
+//! - [`kernel`]: basis functions, quadrature, impedance kernel matrices.
+//! - [`solve`]: NNLS and the Tikhonov problem (plain matrices only).
+//! - [`lambda`]: rules for choosing lambda (GCV, L-curve, discrepancy, re-im CV).
+//! - [`peaks`]: peak detection and per-peak resistance.
+//! - [`invert`]: the full pipeline, spectrum to DRT.
+//! - [`report`]: output tables and the JSON summary.
+//! - [`plot`]: SVG and PNG figures.
+//! - [`synth`]: analytical elements for tests and the demo.
+//!
+//! # Example
+//! ```
+//! use taumap::invert::{invert, InvertParams};
+//! use taumap::io::Spectrum;
+//! use taumap::synth::{log_frequencies, Element, Series};
+//!
+//! // A Voigt element R = 50 ohm, tau = 1 ms behind 10 ohm.
+//! let cell = Series(vec![
+//!     Element::Resistor { r_ohm: 10.0 },
+//!     Element::Voigt { r_ohm: 50.0, tau_s: 1e-3 },
+//! ]);
+//! let f = log_frequencies(1e-1, 1e5, 10.0);
+//! let (re, im) = cell.sample(&f);
+//! let inv = invert(&Spectrum::new(f, re, im)?, &InvertParams::default())?;
+//! assert_eq!(inv.peaks.len(), 1);
+//! assert!((inv.peaks[0].tau_s.log10() + 3.0).abs() < 0.05);
+//! assert!((inv.r_pol_ohm - 50.0).abs() < 0.5);
+//! # Ok::<(), taumap::Error>(())
+//! ```
 #![warn(missing_docs)]
 
 pub mod error;
+pub mod grid;
+pub mod invert;
 pub mod io;
-pub mod plot;
+pub mod kernel;
+pub mod lambda;
 #[cfg(feature = "osqp")]
 pub mod osqp_backend;
+pub mod peaks;
+pub mod plot;
+pub mod report;
+pub mod solve;
+pub mod synth;
 
 pub use error::{Error, Result};

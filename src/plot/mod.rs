@@ -1,1 +1,147 @@
-//! Plots (SVG and PNG).
+//! Figures of spectra, distributions, transients and regularisation scores,
+//! rendered to SVG text or PNG bytes in memory.
+//!
+//! This is the only module that knows about drawing. Every `render_*`
+//! function takes a borrowed figure description and an [`ImageFormat`] and
+//! returns the encoded image; writing it to disk is left to the caller.
+//!
+//! - [`render_drt`]: γ against τ on a log axis, peaks marked.
+//! - [`render_nyquist`]: −Z″ against Z′ with equal ohm-per-pixel scales.
+//! - [`render_bode`]: |Z|, phase and relative residuals against frequency.
+//! - [`render_lambda`]: one panel of score against λ per selection rule.
+//! - [`render_transient`]: a step response and its fit, with residuals.
+//!
+//! Text uses DejaVu Sans, compiled into the crate, so PNG output does not
+//! depend on fonts installed on the machine. SVG output names the same
+//! family, with `sans-serif` as fallback.
+//!
+//! Entries that cannot be shown (NaN, infinite, or not positive on a log
+//! axis) are skipped, and a line is broken where they occur. A required
+//! series that is empty, or series whose lengths disagree, give
+//! [`Error::Plot`](crate::Error::Plot), whose path is the file name the plot
+//! would usually get (`drt.svg`, `nyquist.png`, ...).
+#![warn(clippy::unwrap_used, clippy::float_cmp)]
+
+mod axis;
+mod bode;
+mod common;
+mod draw;
+mod drt;
+mod lambda;
+mod nyquist;
+#[cfg(test)]
+mod testutil;
+mod transient;
+
+pub use bode::render_bode;
+pub use drt::render_drt;
+pub use lambda::render_lambda;
+pub use nyquist::{equal_scale_ranges, render_nyquist};
+pub use transient::render_transient;
+
+/// Output encoding of a figure.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum ImageFormat {
+    /// Scalable vector graphics; the bytes are UTF-8 SVG text.
+    Svg,
+    /// Portable network graphics, 8-bit RGB.
+    Png,
+}
+
+/// A distribution of relaxation times, γ against τ.
+#[derive(Clone, Copy, Debug)]
+pub struct DrtFigure<'a> {
+    /// Relaxation times in s, one per γ value; plotted on a log axis.
+    pub tau_s: &'a [f64],
+    /// Distribution values, in the unit named by `y_label`.
+    pub gamma: &'a [f64],
+    /// Vertical axis label including its unit, e.g. `"gamma (ohm)"`.
+    pub y_label: &'a str,
+    /// Relaxation times of detected peaks in s, marked on the curve; may be empty.
+    pub peaks_tau_s: &'a [f64],
+    /// Figure title; empty for none.
+    pub title: &'a str,
+}
+
+/// A complex-plane (Nyquist) plot of measured and fitted impedance.
+///
+/// `z_im_ohm` keeps its physical sign (negative when capacitive); the plot
+/// shows −Z″ upwards so that capacitive arcs lie above the real axis.
+#[derive(Clone, Copy, Debug)]
+pub struct NyquistFigure<'a> {
+    /// Real part of the measured impedance in ohm.
+    pub z_re_ohm: &'a [f64],
+    /// Imaginary part of the measured impedance in ohm.
+    pub z_im_ohm: &'a [f64],
+    /// Real part of the fitted impedance in ohm; empty for no fit. May be
+    /// sampled more densely than the data.
+    pub fit_re_ohm: &'a [f64],
+    /// Imaginary part of the fitted impedance in ohm; same length as `fit_re_ohm`.
+    pub fit_im_ohm: &'a [f64],
+    /// Figure title; empty for none.
+    pub title: &'a str,
+}
+
+/// Bode plot: |Z|, phase and fit residuals against frequency.
+#[derive(Clone, Copy, Debug)]
+pub struct BodeFigure<'a> {
+    /// Measurement frequencies in Hz.
+    pub frequency_hz: &'a [f64],
+    /// Real part of the measured impedance in ohm, one per frequency.
+    pub z_re_ohm: &'a [f64],
+    /// Imaginary part of the measured impedance in ohm, one per frequency.
+    pub z_im_ohm: &'a [f64],
+    /// Real part of the fit at the same frequencies in ohm; empty for no fit.
+    pub fit_re_ohm: &'a [f64],
+    /// Imaginary part of the fit at the same frequencies in ohm; empty for no fit.
+    pub fit_im_ohm: &'a [f64],
+    /// Relative residual of the real part (0.01 = 1 %), one per frequency; may be empty.
+    pub residual_re_rel: &'a [f64],
+    /// Relative residual of the imaginary part (0.01 = 1 %), one per frequency; may be empty.
+    pub residual_im_rel: &'a [f64],
+    /// Figure title; empty for none.
+    pub title: &'a str,
+}
+
+/// One regularisation-parameter scan: a score against λ.
+#[derive(Clone, Copy, Debug)]
+pub struct LambdaCurve<'a> {
+    /// Name of the selection rule, shown as the panel heading.
+    pub name: &'a str,
+    /// Regularisation parameters scanned (dimensionless), plotted on a log axis.
+    pub lambda: &'a [f64],
+    /// Score at each λ, in the unit named by `y_label`.
+    pub score: &'a [f64],
+    /// Vertical axis label including its unit.
+    pub y_label: &'a str,
+    /// Plot the score on a log axis (non-positive scores are then skipped).
+    pub log_y: bool,
+    /// λ this rule picked, if it picked one.
+    pub chosen_lambda: Option<f64>,
+}
+
+/// Scores of several λ-selection rules, one panel each.
+#[derive(Clone, Copy, Debug)]
+pub struct LambdaFigure<'a> {
+    /// The scans, in panel order (left to right, then top to bottom).
+    pub curves: &'a [LambdaCurve<'a>],
+    /// λ finally used, marked in every panel.
+    pub selected_lambda: f64,
+    /// Figure title; empty for none.
+    pub title: &'a str,
+}
+
+/// A measured step response and its fit.
+#[derive(Clone, Copy, Debug)]
+pub struct TransientFigure<'a> {
+    /// Time since the step in s; plotted on a log axis, so t ≤ 0 is skipped.
+    pub time_s: &'a [f64],
+    /// Measured response, in the unit named by `y_label`.
+    pub measured: &'a [f64],
+    /// Fitted response at the same times; empty for no fit.
+    pub fitted: &'a [f64],
+    /// Vertical axis label including its unit, e.g. `"voltage (V)"`.
+    pub y_label: &'a str,
+    /// Figure title; empty for none.
+    pub title: &'a str,
+}

@@ -1,0 +1,111 @@
+//! Command-line arguments.
+
+use clap::{Args, Parser, Subcommand, ValueEnum};
+use std::path::PathBuf;
+
+/// taumap: distribution of relaxation times from impedance spectra.
+#[derive(Parser, Debug)]
+#[command(name = "taumap", version, about, long_about = None)]
+pub struct Cli {
+    /// What to do.
+    #[command(subcommand)]
+    pub command: Command,
+}
+
+/// Subcommands.
+#[derive(Subcommand, Debug)]
+pub enum Command {
+    /// Invert an impedance spectrum (CSV) onto a distribution of relaxation times.
+    Invert(InvertArgs),
+    /// Write the demo scenario into demo-data/ and invert it.
+    Demo(DemoArgs),
+}
+
+/// Basis family on the command line.
+#[derive(Clone, Copy, Debug, ValueEnum)]
+pub enum BasisArg {
+    /// Gaussian radial basis functions.
+    Gaussian,
+    /// Piecewise-linear hat functions.
+    Hat,
+}
+
+/// Inductance mode on the command line.
+#[derive(Clone, Copy, Debug, ValueEnum)]
+pub enum InductanceArg {
+    /// On when the two highest frequencies show Z'' > 0.
+    Auto,
+    /// Always fitted.
+    On,
+    /// Never fitted.
+    Off,
+}
+
+/// Weighting on the command line.
+#[derive(Clone, Copy, Debug, ValueEnum)]
+pub enum WeightingArg {
+    /// Divide each point by |Z| (relative errors).
+    Modulus,
+    /// Equal weights.
+    Unit,
+}
+
+/// Options shared by every inversion command.
+#[derive(Args, Debug, Clone)]
+pub struct SolveArgs {
+    /// Regularisation: a rule (gcv, lcurve, discrepancy, recv) or a positive number.
+    #[arg(long, value_name = "RULE|VALUE", default_value = "discrepancy")]
+    pub lambda: String,
+    /// Derivative order of the penalty: 0, 1 or 2.
+    #[arg(long, value_name = "K", default_value_t = 0)]
+    pub penalty_order: usize,
+    /// Smallest time constant of the grid (s); default one decade below 1/(2 pi f_max).
+    #[arg(long, value_name = "S")]
+    pub tau_min: Option<f64>,
+    /// Largest time constant of the grid (s); default one decade above 1/(2 pi f_min).
+    #[arg(long, value_name = "S")]
+    pub tau_max: Option<f64>,
+    /// Grid points per decade of tau.
+    #[arg(long, value_name = "N", default_value_t = 10.0)]
+    pub per_decade: f64,
+    /// Basis functions.
+    #[arg(long, value_enum, default_value = "gaussian")]
+    pub basis: BasisArg,
+    /// Print summary.json to standard output.
+    #[arg(long)]
+    pub json: bool,
+    /// Skip the SVG and PNG plots.
+    #[arg(long)]
+    pub no_plots: bool,
+}
+
+/// `taumap invert`.
+#[derive(Args, Debug)]
+pub struct InvertArgs {
+    /// Input spectrum: frequency_hz,z_re_ohm,z_im_ohm (see README for accepted variants).
+    #[arg(value_name = "IN.csv")]
+    pub input: PathBuf,
+    /// Output directory (created if missing); default <stem>-taumap/ beside the input.
+    #[arg(long, value_name = "DIR")]
+    pub out: Option<PathBuf>,
+    /// Series inductance.
+    #[arg(long, value_enum, default_value = "auto")]
+    pub inductance: InductanceArg,
+    /// Also fit a series capacitance (blocking electrodes).
+    #[arg(long)]
+    pub series_capacitance: bool,
+    /// Residual weighting.
+    #[arg(long, value_enum, default_value = "modulus")]
+    pub weighting: WeightingArg,
+    /// Shared solver options.
+    #[command(flatten)]
+    pub solve: SolveArgs,
+}
+
+/// `taumap demo`.
+#[derive(Args, Debug)]
+pub struct DemoArgs {
+    /// Directory for the demo data.
+    #[arg(long, value_name = "DIR", default_value = "demo-data")]
+    pub dir: PathBuf,
+}

@@ -1,0 +1,219 @@
+//! `taumap invert`: spectrum in, DRT, fit, summary and plots out.
+
+use super::args::{BasisArg, InductanceArg, InvertArgs, SolveArgs, WeightingArg};
+use anyhow::{Result, bail};
+use std::io::Write;
+use std::path::{Path, PathBuf};
+use taumap::invert::{InductanceMode, InvertParams, Inversion, LambdaChoice, Weighting, invert};
+use taumap::io::Spectrum;
+use taumap::io::spectrum::read_spectrum_with_layout;
+use taumap::io::write::OutputSet;
+use taumap::kernel::BasisKind;
+use taumap::lambda::LambdaRule;
+use taumap::plot::{self, ImageFormat};
+use taumap::report::{self, Summary};
+
+/// Turns the shared options into inversion parameters.
+pub fn params_from(solve: &SolveArgs) -> Result<InvertParams> {
+    let lambda = match LambdaRule::from_name(&solve.lambda) {
+        Some(rule) => LambdaChoice::Rule(rule),
+        None => match solve.lambda.trim().parse::<f64>() {
+            Ok(v) if v.is_finite() && v > 0.0 => LambdaChoice::Fixed(v),
+            _ => bail!(
+                "--lambda must be a rule (gcv, lcurve, discrepancy, recv) or a positive number, got \"{}\"",
+                solve.lambda
+            ),
+        },
+    };
+    let p = InvertParams {
+        per_decade: solve.per_decade,
+        tau_min_s: solve.tau_min,
+        tau_max_s: solve.tau_max,
+        basis: match solve.basis {
+            BasisArg::Gaussian => BasisKind::Gaussian,
+            BasisArg::Hat => BasisKind::Hat,
+        },
+        penalty_order: solve.penalty_order,
+        lambda,
+        all_curves: true,
+        ..InvertParams::default()
+    };
+    p.validate()?;
+    Ok(p)
+}
+
+/// Default output directory: `<stem>-taumap/` beside the input.
+pub fn default_out_dir(input: &Path) -> PathBuf {
+    let stem = input
+        .file_stem()
+        .map(|s| s.to_string_lossy().into_owned())
+        .unwrap_or_else(|| "spectrum".into());
+    input
+        .parent()
+        .unwrap_or_else(|| Path::new("."))
+        .join(format!("{stem}-taumap"))
+}
+
+/// Runs the subcommand.
+pub fn run(a: &InvertArgs) -> Result<()> {
+    let mut params = params_from(&a.solve)?;
+    params.inductance = match a.inductance {
+        InductanceArg::Auto => InductanceMode::Auto,
+        InductanceArg::On => InductanceMode::On,
+        InductanceArg::Off => InductanceMode::Off,
+    };
+    params.weighting = match a.weighting {
+        WeightingArg::Modulus => Weighting::Modulus,
+        WeightingArg::Unit => Weighting::Unit,
+    };
+    params.series_capacitance = a.series_capacitance;
+    let (spectrum, layout) = read_spectrum_with_layout(&a.input)?;
+    if layout.imag_mostly_positive {
+        eprintln!(
+            "warning: {}: the imaginary part is positive at most frequencies; taumap expects Z'' with its physical sign (negative when capacitive)",
+            a.input.display()
+        );
+    }
+    let inv = invert(&spectrum, &params)?;
+    let out = a.out.clone().unwrap_or_else(|| default_out_dir(&a.input));
+    let summary = Summary::new(&a.input.display().to_string(), &spectrum, &params, &inv);
+    let written = write_outputs(&out, &spectrum, &inv, &summary, !a.solve.no_plots)?;
+    report_run(&summary, &out, &written, a.solve.json)
+}
+
+/// Prints either the JSON summary (with `--json`) or a short human report.
+pub fn report_run(summary: &Summary, out: &Path, written: &[PathBuf], json: bool) -> Result<()> {
+    let mut stdout = std::io::stdout().lock();
+    if json {
+        stdout.write_all(summary.to_json().as_bytes())?;
+        return Ok(());
+    }
+    writeln!(
+        stdout,
+        "r_inf = {:.6} ohm, r_pol = {:.6} ohm, lambda = {:.3e} ({}), residual rms = {:.3} %",
+        summary.r_inf_ohm,
+        summary.r_pol_ohm,
+        summary.lambda,
+        summary.lambda_rule,
+        100.0 * summary.residual_rms_rel
+    )?;
+    if let Some(l) = summary.inductance_h {
+        writeln!(stdout, "inductance = {l:.4e} H")?;
+    }
+    for (i, p) in summary.peaks.iter().enumerate() {
+        writeln!(
+            stdout,
+            "peak {}: tau = {:.4e} s ({:.4e} Hz), r = {:.6} ohm",
+            i + 1,
+            p.tau_s,
+            p.frequency_hz,
+            p.r_ohm
+        )?;
+    }
+    writeln!(stdout, "wrote {} files to {}", written.len(), out.display())?;
+    Ok(())
+}
+
+/// Builds every output in memory, then commits them together.
+pub fn write_outputs(
+    out: &Path,
+    spectrum: &Spectrum,
+    inv: &Inversion,
+    summary: &Summary,
+    plots: bool,
+) -> Result<Vec<PathBuf>> {
+    let mut set = OutputSet::new(out);
+    set.add("drt.csv", report::drt_csv(inv))?;
+    set.add("fit.csv", report::fit_csv(spectrum, inv))?;
+    if let Some(l) = report::lambda_csv(inv) {
+        set.add("lambda.csv", l)?;
+    }
+    set.add("summary.json", summary.to_json())?;
+    if plots {
+        for (name, bytes) in figures(spectrum, inv)? {
+            set.add(name, bytes)?;
+        }
+    }
+    Ok(set.commit()?)
+}
+
+/// Every plot of an inversion as (file name, bytes).
+pub fn figures(spectrum: &Spectrum, inv: &Inversion) -> Result<Vec<(String, Vec<u8>)>> {
+    let peaks: Vec<f64> = inv.peaks.iter().map(|p| p.tau_s).collect();
+    let mut out = Vec::new();
+    for (ext, fmt) in [("svg", ImageFormat::Svg), ("png", ImageFormat::Png)] {
+        out.push((
+            format!("drt.{ext}"),
+            plot::render_drt(
+                &plot::DrtFigure {
+                    tau_s: &inv.tau_s,
+                    gamma: &inv.gamma_ohm,
+                    y_label: "gamma (ohm)",
+                    peaks_tau_s: &peaks,
+                    title: "Distribution of relaxation times",
+                },
+                fmt,
+            )?,
+        ));
+        out.push((
+            format!("nyquist.{ext}"),
+            plot::render_nyquist(
+                &plot::NyquistFigure {
+                    z_re_ohm: &spectrum.z_re_ohm,
+                    z_im_ohm: &spectrum.z_im_ohm,
+                    fit_re_ohm: &inv.fit_re_ohm,
+                    fit_im_ohm: &inv.fit_im_ohm,
+                    title: "Nyquist plot: data and DRT fit",
+                },
+                fmt,
+            )?,
+        ));
+        out.push((
+            format!("bode.{ext}"),
+            plot::render_bode(
+                &plot::BodeFigure {
+                    frequency_hz: &spectrum.frequency_hz,
+                    z_re_ohm: &spectrum.z_re_ohm,
+                    z_im_ohm: &spectrum.z_im_ohm,
+                    fit_re_ohm: &inv.fit_re_ohm,
+                    fit_im_ohm: &inv.fit_im_ohm,
+                    residual_re_rel: &inv.residual_re_rel,
+                    residual_im_rel: &inv.residual_im_rel,
+                    title: "Bode plot and relative residuals",
+                },
+                fmt,
+            )?,
+        ));
+        if let Some(c) = &inv.curves {
+            let curves: Vec<plot::LambdaCurve> = c
+                .rules
+                .iter()
+                .map(|r| plot::LambdaCurve {
+                    name: r.rule.name(),
+                    lambda: &c.lambda,
+                    score: &r.score,
+                    y_label: match r.rule {
+                        LambdaRule::Gcv => "GCV score",
+                        LambdaRule::Lcurve => "L-curve curvature",
+                        LambdaRule::Discrepancy => "residual / noise",
+                        LambdaRule::Recv => "re-im CV score",
+                    },
+                    log_y: !matches!(r.rule, LambdaRule::Lcurve),
+                    chosen_lambda: r.chosen,
+                })
+                .collect();
+            out.push((
+                format!("lambda.{ext}"),
+                plot::render_lambda(
+                    &plot::LambdaFigure {
+                        curves: &curves,
+                        selected_lambda: inv.lambda,
+                        title: "Choice of the regularisation parameter",
+                    },
+                    fmt,
+                )?,
+            ));
+        }
+    }
+    Ok(out)
+}

@@ -1,0 +1,16 @@
+//! The command-line program: argument parsing and one file per subcommand.
+
+pub mod args;
+pub mod demo;
+pub mod invert;
+
+use anyhow::Result;
+use args::{Cli, Command};
+
+/// Runs the parsed command line.
+pub fn run(cli: Cli) -> Result<()> {
+    match cli.command {
+        Command::Invert(a) => invert::run(&a),
+        Command::Demo(a) => demo::run(&a),
+    }
+}

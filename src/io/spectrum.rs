@@ -1,0 +1,944 @@
+//! Reader for impedance spectra.
+//!
+//! A spectrum file is a delimited table (see [`crate::io::table`] for the
+//! accepted layout: delimiter, comments, quoting, encoding) whose canonical
+//! header is [`CANONICAL_HEADER`], `frequency_hz,z_re_ohm,z_im_ohm`.
+//!
+//! Columns are recognised by name, case-insensitively after normalisation
+//! ([`crate::io::table::split_unit`]), in any order; other columns are
+//! ignored. Accepted names:
+//!
+//! | quantity | names |
+//! |---|---|
+//! | frequency (Hz) | `frequency_hz`, `frequency`, `freq`, `f`, `freq_hz`, `f_hz` |
+//! | real part (Ω) | `z_re_ohm`, `real`, `re`, `z'`, `zreal`, `z_re`, `zre`, `z_real` |
+//! | imaginary part (Ω) | `z_im_ohm`, `imag`, `im`, `z''`, `zimag`, `z_im`, `zim`, `z_imag` |
+//! | negated imaginary part (Ω) | `-z''`, `-imag`, `-im`, `-z_im`, `-z_im_ohm`, `neg_z_im_ohm`, `minus_z_im`, `-zimag`, … |
+//! | modulus (Ω) | `modulus`, `mod`, `\|z\|`, `z_mod_ohm`, `zmod`, `magnitude`, `z_abs_ohm` |
+//! | phase (degrees) | `phase`, `phase_deg`, `phi`, `theta`, `z_phase_deg` |
+//!
+//! A unit written after the name (`Freq (Hz)`, `Z' [Ohm]`, `Phase/deg`)
+//! must be Hz, ohm or degrees; other units are rejected rather than guessed.
+//! Real and imaginary columns take precedence over modulus and phase; a
+//! plain imaginary column takes precedence over a negated one.
+//!
+//! # Sign convention
+//!
+//! [`Spectrum::z_im_ohm`] keeps its physical sign: negative where the
+//! response is capacitive. A negated-imaginary column (`-Z''`) is converted
+//! on reading. A modulus-and-phase pair is converted with
+//! `Z = |Z| (cos φ + j sin φ)`, φ in degrees.
+
+use std::fs::File;
+use std::io::{BufRead, BufReader};
+use std::path::Path;
+
+use crate::error::{Error, Result};
+use crate::io::table::{Table, read_table, split_unit};
+
+/// Minimum number of points a spectrum file must hold.
+pub const MIN_POINTS: usize = 5;
+
+/// The header written by taumap and shown in messages as the model to follow.
+pub const CANONICAL_HEADER: &str = "frequency_hz,z_re_ohm,z_im_ohm";
+
+/// Example header for modulus-and-phase data, shown in messages.
+const POLAR_HEADER: &str = "frequency_hz,z_mod_ohm,z_phase_deg";
+
+const FREQUENCY_NAMES: &[&str] = &["frequency_hz", "frequency", "freq", "f", "freq_hz", "f_hz"];
+const REAL_NAMES: &[&str] = &[
+    "z_re_ohm", "real", "re", "z'", "zreal", "z_re", "zre", "z_real",
+];
+const IMAG_NAMES: &[&str] = &[
+    "z_im_ohm", "imag", "im", "z''", "zimag", "z_im", "zim", "z_imag",
+];
+const NEG_IMAG_NAMES: &[&str] = &[
+    "-z''",
+    "-imag",
+    "-im",
+    "-z_im",
+    "-z_im_ohm",
+    "neg_z_im_ohm",
+    "neg_z_im",
+    "minus_z_im",
+    "minus_z_im_ohm",
+    "-zimag",
+    "-z_imag",
+    "-zim",
+];
+const MODULUS_NAMES: &[&str] = &[
+    "modulus",
+    "mod",
+    "|z|",
+    "z_mod_ohm",
+    "zmod",
+    "magnitude",
+    "z_abs_ohm",
+];
+const PHASE_NAMES: &[&str] = &["phase", "phase_deg", "phi", "theta", "z_phase_deg"];
+
+const HZ_UNITS: &[&str] = &["hz"];
+const OHM_UNITS: &[&str] = &["ohm", "ohms", "\u{3c9}", "\u{3a9}", "\u{2126}"];
+const DEGREE_UNITS: &[&str] = &["deg", "degree", "degrees", "\u{b0}"];
+
+/// An impedance spectrum, sorted by ascending frequency.
+///
+/// Sign convention: `z_im_ohm` keeps its physical sign (negative when
+/// capacitive). Values built by [`Spectrum::new`] or read from a file are
+/// finite, frequencies are positive and distinct, and the three vectors have
+/// the same length.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Spectrum {
+    /// Frequencies in Hz, strictly ascending.
+    pub frequency_hz: Vec<f64>,
+    /// Real part of the impedance in Ω.
+    pub z_re_ohm: Vec<f64>,
+    /// Imaginary part of the impedance in Ω, with its physical sign.
+    pub z_im_ohm: Vec<f64>,
+}
+
+impl Spectrum {
+    /// Builds a spectrum from three equally long vectors, sorting the points
+    /// by ascending frequency.
+    ///
+    /// Fails with [`Error::Data`] when the lengths differ, a value is not
+    /// finite, a frequency is not positive, or two frequencies are equal
+    /// (indices in messages refer to the input order, from 0). The number of
+    /// points is not checked here; the file readers require [`MIN_POINTS`].
+    pub fn new(frequency_hz: Vec<f64>, z_re_ohm: Vec<f64>, z_im_ohm: Vec<f64>) -> Result<Self> {
+        let n = frequency_hz.len();
+        if z_re_ohm.len() != n {
+            return Err(Error::Data(format!(
+                "{n} frequencies but {} real parts",
+                z_re_ohm.len()
+            )));
+        }
+        if z_im_ohm.len() != n {
+            return Err(Error::Data(format!(
+                "{n} frequencies but {} imaginary parts",
+                z_im_ohm.len()
+            )));
+        }
+        let mut points = Vec::with_capacity(n);
+        for (i, ((&f, &re), &im)) in frequency_hz
+            .iter()
+            .zip(&z_re_ohm)
+            .zip(&z_im_ohm)
+            .enumerate()
+        {
+            if !(f.is_finite() && f > 0.0) {
+                return Err(Error::Data(format!(
+                    "frequency_hz[{i}] must be positive and finite, found {f}"
+                )));
+            }
+            if !re.is_finite() {
+                return Err(Error::Data(format!(
+                    "z_re_ohm[{i}] must be finite, found {re}"
+                )));
+            }
+            if !im.is_finite() {
+                return Err(Error::Data(format!(
+                    "z_im_ohm[{i}] must be finite, found {im}"
+                )));
+            }
+            points.push(Point { f, re, im, at: i });
+        }
+        sort_points(&mut points);
+        if let Some((a, b)) = first_duplicate(&points) {
+            return Err(Error::Data(format!(
+                "duplicate frequency {} Hz (indices {} and {})",
+                a.f, a.at, b.at
+            )));
+        }
+        Ok(Self::from_sorted(&points))
+    }
+
+    /// Number of frequencies.
+    pub fn len(&self) -> usize {
+        self.frequency_hz.len()
+    }
+
+    /// Whether the spectrum holds no points.
+    pub fn is_empty(&self) -> bool {
+        self.frequency_hz.is_empty()
+    }
+
+    /// The same spectrum with the impedance multiplied by `k` (frequencies
+    /// unchanged). `k` should be finite to keep the values finite.
+    #[must_use]
+    pub fn scaled(&self, k: f64) -> Spectrum {
+        debug_assert!(k.is_finite(), "scale factor must be finite, got {k}");
+        Spectrum {
+            frequency_hz: self.frequency_hz.clone(),
+            z_re_ohm: self.z_re_ohm.iter().map(|v| v * k).collect(),
+            z_im_ohm: self.z_im_ohm.iter().map(|v| v * k).collect(),
+        }
+    }
+
+    fn from_sorted(points: &[Point]) -> Self {
+        Spectrum {
+            frequency_hz: points.iter().map(|p| p.f).collect(),
+            z_re_ohm: points.iter().map(|p| p.re).collect(),
+            z_im_ohm: points.iter().map(|p| p.im).collect(),
+        }
+    }
+}
+
+/// How a spectrum file was interpreted, for reporting.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct SpectrumLayout {
+    /// Field delimiter detected from the header line.
+    pub delimiter: char,
+    /// 1-based line number of the header.
+    pub header_line: usize,
+    /// 0-based field indices of the columns used: frequency, then real part
+    /// and imaginary part, or modulus and phase when [`Self::polar`] is set.
+    pub columns: [usize; 3],
+    /// Names of the columns used, as written in the header, in the order of
+    /// [`Self::columns`].
+    pub column_names: [String; 3],
+    /// The imaginary column held −Z'' and was negated on reading.
+    pub negated_imag: bool,
+    /// The impedance was given as modulus (Ω) and phase (degrees).
+    pub polar: bool,
+    /// More than half the points have `z_im_ohm > 0` (inductive). This is
+    /// legal, but for most cells it means the sign is flipped in the file.
+    pub imag_mostly_positive: bool,
+    /// Header names of the columns that were not used, in file order.
+    pub ignored_columns: Vec<String>,
+}
+
+/// Opens and reads a spectrum file; see [`parse_spectrum`].
+///
+/// Fails with [`Error::Io`] when the file cannot be opened or read.
+pub fn read_spectrum(path: &Path) -> Result<Spectrum> {
+    read_spectrum_with_layout(path).map(|(spectrum, _)| spectrum)
+}
+
+/// Opens and reads a spectrum file, also returning how it was interpreted;
+/// see [`parse_spectrum_with_layout`].
+pub fn read_spectrum_with_layout(path: &Path) -> Result<(Spectrum, SpectrumLayout)> {
+    let file = File::open(path).map_err(|source| Error::Io {
+        path: path.to_path_buf(),
+        source,
+    })?;
+    parse_spectrum_with_layout(BufReader::new(file), path)
+}
+
+/// Parses a spectrum from `reader`; `path` only labels errors.
+///
+/// Fails with [`Error::Parse`] at the offending line for unusable text,
+/// missing or ambiguous columns, unsupported units, non-numeric or
+/// non-finite values, frequencies `<= 0`, duplicate frequencies and a
+/// negated-imaginary column that already carries the physical sign; with
+/// [`Error::TooFewPoints`] below [`MIN_POINTS`] points.
+pub fn parse_spectrum<R: BufRead>(reader: R, path: &Path) -> Result<Spectrum> {
+    parse_spectrum_with_layout(reader, path).map(|(spectrum, _)| spectrum)
+}
+
+/// Like [`parse_spectrum`], also returning the [`SpectrumLayout`] found.
+pub fn parse_spectrum_with_layout<R: BufRead>(
+    reader: R,
+    path: &Path,
+) -> Result<(Spectrum, SpectrumLayout)> {
+    let table = read_table(reader, path, CANONICAL_HEADER)?;
+    let choice = choose_columns(&table)?;
+    let [f_col, a_col, b_col] = choice.columns;
+
+    let mut points = Vec::with_capacity(table.rows.len());
+    for row in &table.rows {
+        let f = table.number(row, f_col)?;
+        if f <= 0.0 {
+            return Err(table.error(
+                row.line,
+                format!(
+                    "frequency must be positive, found {} (column {})",
+                    row.field(f_col),
+                    table.column_name(f_col)
+                ),
+            ));
+        }
+        let a = table.number(row, a_col)?;
+        let b = table.number(row, b_col)?;
+        let (re, im) = if choice.polar {
+            if a < 0.0 {
+                return Err(table.error(
+                    row.line,
+                    format!(
+                        "modulus must not be negative, found {} (column {})",
+                        row.field(a_col),
+                        table.column_name(a_col)
+                    ),
+                ));
+            }
+            let phi = b.to_radians();
+            (a * phi.cos(), a * phi.sin())
+        } else if choice.negated {
+            (a, -b)
+        } else {
+            (a, b)
+        };
+        points.push(Point {
+            f,
+            re,
+            im,
+            at: row.line,
+        });
+    }
+
+    sort_points(&mut points);
+    if let Some((a, b)) = first_duplicate(&points) {
+        return Err(table.error(
+            b.at,
+            format!("duplicate frequency {} Hz (also on line {})", a.f, a.at),
+        ));
+    }
+    if points.len() < MIN_POINTS {
+        return Err(Error::TooFewPoints {
+            path: path.to_path_buf(),
+            needed: MIN_POINTS,
+            found: points.len(),
+        });
+    }
+
+    let n = points.len();
+    let n_positive = points.iter().filter(|p| p.im > 0.0).count();
+    let imag_mostly_positive = 2 * n_positive > n;
+    if choice.negated && imag_mostly_positive {
+        let name = table.column_name(b_col);
+        return Err(table.error(
+            table.header_line,
+            format!(
+                "column \"{name}\" should hold the negated imaginary part, but {n_positive} \
+                 of {n} values are negative, so it seems to carry the physical sign already \
+                 (if so, rename the column to \"z_im_ohm\")"
+            ),
+        ));
+    }
+
+    let layout = SpectrumLayout {
+        delimiter: table.delimiter,
+        header_line: table.header_line,
+        columns: choice.columns,
+        column_names: choice.columns.map(|c| table.column_name(c).to_string()),
+        negated_imag: choice.negated,
+        polar: choice.polar,
+        imag_mostly_positive,
+        ignored_columns: table
+            .header
+            .iter()
+            .enumerate()
+            .filter(|(i, _)| !choice.columns.contains(i))
+            .map(|(_, name)| name.clone())
+            .collect(),
+    };
+    Ok((Spectrum::from_sorted(&points), layout))
+}
+
+/// One point before sorting; `at` is the file line or the input index.
+#[derive(Debug, Clone, Copy)]
+struct Point {
+    f: f64,
+    re: f64,
+    im: f64,
+    at: usize,
+}
+
+/// Stable sort by frequency, so equal frequencies stay in input order.
+fn sort_points(points: &mut [Point]) {
+    points.sort_by(|a, b| a.f.total_cmp(&b.f));
+}
+
+/// Among sorted points, the pair of equal frequencies whose later member
+/// comes first in the input, so the first repeat a reader meets is named.
+fn first_duplicate(points: &[Point]) -> Option<(Point, Point)> {
+    points
+        .windows(2)
+        .filter(|w| w[0].f.total_cmp(&w[1].f).is_eq())
+        .map(|w| (w[0], w[1]))
+        .min_by_key(|(_, later)| later.at)
+}
+
+/// Which fields of a table hold the spectrum.
+struct Choice {
+    columns: [usize; 3],
+    negated: bool,
+    polar: bool,
+}
+
+fn choose_columns(table: &Table) -> Result<Choice> {
+    let header_err = |msg: String| table.error(table.header_line, msg);
+    let looks_numeric = table
+        .header
+        .iter()
+        .all(|h| !h.trim().is_empty() && h.trim().parse::<f64>().is_ok());
+    if looks_numeric {
+        return Err(header_err(format!(
+            "\"{}\" looks like data, not a header (add a header line such as \"{CANONICAL_HEADER}\")",
+            table.header_text
+        )));
+    }
+    let missing = |what: &str, example: &str| {
+        let hint = if table.header.len() == 1 {
+            ", with columns separated by commas, semicolons or tabs"
+        } else {
+            ""
+        };
+        header_err(format!(
+            "no {what} column found in header \"{}\" (expected e.g. \"{example}\"{hint})",
+            table.header_text
+        ))
+    };
+
+    let freq = table.find_columns(FREQUENCY_NAMES);
+    let re = table.find_columns(REAL_NAMES);
+    let im = table.find_columns(IMAG_NAMES);
+    let neg = table.find_columns(NEG_IMAG_NAMES);
+    let modulus = table.find_columns(MODULUS_NAMES);
+    let phase = table.find_columns(PHASE_NAMES);
+
+    if freq.is_empty() {
+        return Err(missing("frequency", CANONICAL_HEADER));
+    }
+    let (lists, negated, polar) = if !re.is_empty() && !im.is_empty() {
+        (
+            [
+                (&freq, "frequency"),
+                (&re, "real part"),
+                (&im, "imaginary part"),
+            ],
+            false,
+            false,
+        )
+    } else if !re.is_empty() && !neg.is_empty() {
+        (
+            [
+                (&freq, "frequency"),
+                (&re, "real part"),
+                (&neg, "negated imaginary part"),
+            ],
+            true,
+            false,
+        )
+    } else if !modulus.is_empty() && !phase.is_empty() {
+        (
+            [
+                (&freq, "frequency"),
+                (&modulus, "modulus"),
+                (&phase, "phase"),
+            ],
+            false,
+            true,
+        )
+    } else if !re.is_empty() {
+        return Err(missing("imaginary-part", CANONICAL_HEADER));
+    } else if !modulus.is_empty() {
+        return Err(missing("phase", POLAR_HEADER));
+    } else if !phase.is_empty() {
+        return Err(missing("modulus", POLAR_HEADER));
+    } else {
+        return Err(missing("real-part", CANONICAL_HEADER));
+    };
+
+    let mut columns = [0; 3];
+    for (slot, (list, what)) in columns.iter_mut().zip(lists) {
+        match list[..] {
+            [only] => *slot = only,
+            [first, second, ..] => {
+                return Err(header_err(format!(
+                    "columns \"{}\" and \"{}\" both name the {what} (remove or rename one of them)",
+                    table.column_name(first),
+                    table.column_name(second)
+                )));
+            }
+            [] => unreachable!("the layout is chosen only from non-empty column lists"),
+        }
+    }
+
+    let impedance_units = if polar {
+        [OHM_UNITS, DEGREE_UNITS]
+    } else {
+        [OHM_UNITS; 2]
+    };
+    let units = [HZ_UNITS, impedance_units[0], impedance_units[1]];
+    for (&col, allowed) in columns.iter().zip(units) {
+        let name = table.column_name(col);
+        if let (_, Some(unit)) = split_unit(name) {
+            if !allowed.contains(&unit.to_lowercase().as_str()) {
+                let fix = if allowed == HZ_UNITS {
+                    "give frequencies in Hz"
+                } else if allowed == DEGREE_UNITS {
+                    "give phases in degrees"
+                } else {
+                    "give impedances in ohm"
+                };
+                return Err(header_err(format!(
+                    "unsupported unit \"{unit}\" in column \"{name}\" ({fix})"
+                )));
+            }
+        }
+    }
+    Ok(Choice {
+        columns,
+        negated,
+        polar,
+    })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use proptest::prelude::*;
+
+    const P: &str = "cell_a.csv";
+
+    fn parse(bytes: &[u8]) -> Result<(Spectrum, SpectrumLayout)> {
+        parse_spectrum_with_layout(bytes, Path::new(P))
+    }
+
+    fn err_text(bytes: &[u8]) -> String {
+        parse(bytes)
+            .expect_err("input should be rejected")
+            .to_string()
+    }
+
+    fn close(a: f64, b: f64) -> bool {
+        (a - b).abs() <= 1e-9 * (1.0 + b.abs())
+    }
+
+    fn assert_all_close(got: &[f64], want: &[f64]) {
+        assert_eq!(got.len(), want.len(), "{got:?} vs {want:?}");
+        for (g, w) in got.iter().zip(want) {
+            assert!(close(*g, *w), "{got:?} vs {want:?}");
+        }
+    }
+
+    /// Five capacitive points in descending frequency, as instruments sweep.
+    const ROWS: &str = "1000,10,-5\n100,11,-6\n10,12,-7\n1,13,-3\n0.1,14,-1\n";
+
+    #[test]
+    fn reads_canonical_file_with_bom_crlf_comments_and_spaces() {
+        let (s, layout) = parse(
+            b"\xEF\xBB\xBFfrequency_hz;z_re_ohm;z_im_ohm\r\n# comment\r\n\r\n 1000 ; 10 ; -5 \r\n\
+              100;11;-6\r\n  # another\r\n10;12;-7\r\n1;13;-3\r\n0.1;14;-1\r\n",
+        )
+        .unwrap();
+        assert_all_close(&s.frequency_hz, &[0.1, 1.0, 10.0, 100.0, 1000.0]);
+        assert_all_close(&s.z_re_ohm, &[14.0, 13.0, 12.0, 11.0, 10.0]);
+        assert_all_close(&s.z_im_ohm, &[-1.0, -3.0, -7.0, -6.0, -5.0]);
+        assert_eq!(s.len(), 5);
+        assert!(!s.is_empty());
+        assert_eq!(
+            layout,
+            SpectrumLayout {
+                delimiter: ';',
+                header_line: 1,
+                columns: [0, 1, 2],
+                column_names: ["frequency_hz".into(), "z_re_ohm".into(), "z_im_ohm".into()],
+                negated_imag: false,
+                polar: false,
+                imag_mostly_positive: false,
+                ignored_columns: vec![],
+            }
+        );
+    }
+
+    #[test]
+    fn columns_in_any_order_with_extras_ignored() {
+        let text = "idx\tZ'' (Ohm)\tTime/s\tFreq (Hz)\tZ' [Ohm]\n\
+                    1\t-5\t0\t1e3\t10\n2\t-6\t1\t1e2\t11\n3\t-7\t2\t1e1\t12\n\
+                    4\t-3\t3\t1\t13\n5\t-1\t4\t0.1\t14\n";
+        let (s, layout) = parse(text.as_bytes()).unwrap();
+        assert_all_close(&s.frequency_hz, &[0.1, 1.0, 10.0, 100.0, 1000.0]);
+        assert_all_close(&s.z_re_ohm, &[14.0, 13.0, 12.0, 11.0, 10.0]);
+        assert_all_close(&s.z_im_ohm, &[-1.0, -3.0, -7.0, -6.0, -5.0]);
+        assert_eq!(layout.delimiter, '\t');
+        assert_eq!(layout.columns, [3, 4, 1]);
+        assert_eq!(layout.column_names[1], "Z' [Ohm]");
+        assert_eq!(layout.ignored_columns, ["idx", "Time/s"]);
+    }
+
+    #[test]
+    fn accepts_every_documented_header_name() {
+        for f in FREQUENCY_NAMES {
+            for re in REAL_NAMES {
+                for im in IMAG_NAMES {
+                    let text = format!("{}, {re} ,{im}\n{ROWS}", f.to_uppercase());
+                    let s = parse_spectrum(text.as_bytes(), Path::new(P))
+                        .unwrap_or_else(|e| panic!("{f},{re},{im}: {e}"));
+                    assert_all_close(&s.z_im_ohm, &[-1.0, -3.0, -7.0, -6.0, -5.0]);
+                }
+            }
+        }
+        for neg in NEG_IMAG_NAMES {
+            let text = format!("f,re,\"{neg}\"\n{}", ROWS.replace(",-", ","));
+            let (s, layout) = parse(text.as_bytes()).unwrap_or_else(|e| panic!("{neg}: {e}"));
+            assert!(layout.negated_imag, "{neg}");
+            assert_all_close(&s.z_im_ohm, &[-1.0, -3.0, -7.0, -6.0, -5.0]);
+        }
+        for m in MODULUS_NAMES {
+            for ph in PHASE_NAMES {
+                let text = format!("f,{m},{ph}\n1,1,0\n2,1,0\n3,1,0\n4,1,0\n5,1,0\n");
+                let (_, layout) = parse(text.as_bytes()).unwrap_or_else(|e| panic!("{m}: {e}"));
+                assert!(layout.polar, "{m},{ph}");
+            }
+        }
+    }
+
+    #[test]
+    fn negated_imaginary_column_is_converted() {
+        let text = format!("Freq/Hz,Z'/Ohm,-Z''/Ohm\n{}", ROWS.replace(",-", ","));
+        let (s, layout) = parse(text.as_bytes()).unwrap();
+        assert!(layout.negated_imag);
+        assert!(!layout.imag_mostly_positive);
+        assert_all_close(&s.z_im_ohm, &[-1.0, -3.0, -7.0, -6.0, -5.0]);
+    }
+
+    #[test]
+    fn negated_column_holding_physical_sign_is_rejected() {
+        let text = format!("# exported\nf,re,-Z''\n{ROWS}");
+        assert_eq!(
+            err_text(text.as_bytes()),
+            "cell_a.csv:2: column \"-Z''\" should hold the negated imaginary part, but 5 of 5 \
+             values are negative, so it seems to carry the physical sign already \
+             (if so, rename the column to \"z_im_ohm\")"
+        );
+    }
+
+    #[test]
+    fn mostly_positive_plain_imaginary_is_accepted_and_flagged() {
+        let text = "f,re,im\n1,1,1\n2,1,2\n3,1,3\n4,1,-1\n5,1,-2\n";
+        let (s, layout) = parse(text.as_bytes()).unwrap();
+        assert!(layout.imag_mostly_positive);
+        assert_all_close(&s.z_im_ohm, &[1.0, 2.0, 3.0, -1.0, -2.0]);
+        // Two of five positive is not "mostly".
+        let text = "f,re,im\n1,1,1\n2,1,2\n3,1,-3\n4,1,-1\n5,1,-2\n";
+        assert!(!parse(text.as_bytes()).unwrap().1.imag_mostly_positive);
+    }
+
+    #[test]
+    fn polar_columns_are_converted_from_degrees() {
+        let text = "frequency_hz,|Z| (Ohm),Phase (deg)\n\
+                    1,10,-30\n2,10,-90\n3,2,0\n4,4,45\n5,1,-180\n";
+        let (s, layout) = parse(text.as_bytes()).unwrap();
+        assert!(layout.polar);
+        assert!(!layout.negated_imag);
+        assert_all_close(
+            &s.z_re_ohm,
+            &[8.660_254_037_844_386, 0.0, 2.0, 2.0 * 2f64.sqrt(), -1.0],
+        );
+        assert_all_close(&s.z_im_ohm, &[-5.0, -10.0, 0.0, 2.0 * 2f64.sqrt(), 0.0]);
+        assert!((s.z_re_ohm[0] - 8.660_254).abs() < 1e-6);
+    }
+
+    #[test]
+    fn rectangular_columns_win_over_polar_ones() {
+        let text =
+            "f,Z',Z'',|Z|,phase\n1,1,-1,99,0\n2,1,-1,99,0\n3,1,-1,99,0\n4,1,-1,99,0\n5,1,-1,99,0\n";
+        let (s, layout) = parse(text.as_bytes()).unwrap();
+        assert!(!layout.polar);
+        assert_eq!(layout.ignored_columns, ["|Z|", "phase"]);
+        assert_all_close(&s.z_re_ohm, &[1.0; 5]);
+    }
+
+    #[test]
+    fn missing_columns_are_named_at_the_header() {
+        assert_eq!(
+            err_text(b"freq,re\n1,2\n"),
+            "cell_a.csv:1: no imaginary-part column found in header \"freq,re\" \
+             (expected e.g. \"frequency_hz,z_re_ohm,z_im_ohm\")"
+        );
+        assert_eq!(
+            err_text(b"# c\nhz,re,im\n"),
+            "cell_a.csv:2: no frequency column found in header \"hz,re,im\" \
+             (expected e.g. \"frequency_hz,z_re_ohm,z_im_ohm\")"
+        );
+        assert_eq!(
+            err_text(b"f,a,im\n"),
+            "cell_a.csv:1: no real-part column found in header \"f,a,im\" \
+             (expected e.g. \"frequency_hz,z_re_ohm,z_im_ohm\")"
+        );
+        assert_eq!(
+            err_text(b"f,|Z|\n"),
+            "cell_a.csv:1: no phase column found in header \"f,|Z|\" \
+             (expected e.g. \"frequency_hz,z_mod_ohm,z_phase_deg\")"
+        );
+        assert_eq!(
+            err_text(b"f;phase\n"),
+            "cell_a.csv:1: no modulus column found in header \"f;phase\" \
+             (expected e.g. \"frequency_hz,z_mod_ohm,z_phase_deg\")"
+        );
+        assert_eq!(
+            err_text(b"frequency_hz z_re_ohm z_im_ohm\n"),
+            "cell_a.csv:1: no frequency column found in header \"frequency_hz z_re_ohm z_im_ohm\" \
+             (expected e.g. \"frequency_hz,z_re_ohm,z_im_ohm\", with columns separated by \
+             commas, semicolons or tabs)"
+        );
+        assert_eq!(
+            err_text(b"1000,10,-5\n100,11,-6\n"),
+            "cell_a.csv:1: \"1000,10,-5\" looks like data, not a header \
+             (add a header line such as \"frequency_hz,z_re_ohm,z_im_ohm\")"
+        );
+    }
+
+    #[test]
+    fn ambiguous_columns_and_bad_units_are_rejected() {
+        assert_eq!(
+            err_text(b"f,re,im,freq\n"),
+            "cell_a.csv:1: columns \"f\" and \"freq\" both name the frequency \
+             (remove or rename one of them)"
+        );
+        assert_eq!(
+            err_text(b"Freq (kHz),re,im\n"),
+            "cell_a.csv:1: unsupported unit \"kHz\" in column \"Freq (kHz)\" (give frequencies in Hz)"
+        );
+        assert_eq!(
+            err_text(b"f,Z' (kOhm),im\n"),
+            "cell_a.csv:1: unsupported unit \"kOhm\" in column \"Z' (kOhm)\" (give impedances in ohm)"
+        );
+        assert_eq!(
+            err_text(b"f,|Z|,phase (rad)\n"),
+            "cell_a.csv:1: unsupported unit \"rad\" in column \"phase (rad)\" (give phases in degrees)"
+        );
+        let ok = format!("f (HZ),re (Ω),im [ohms]\n{ROWS}");
+        assert!(parse(ok.as_bytes()).is_ok());
+    }
+
+    #[test]
+    fn bad_values_name_line_and_column() {
+        let with = |line: &str| format!("frequency_hz,z_re_ohm,z_im_ohm\n1,1,-1\n{line}\n");
+        assert_eq!(
+            err_text(with("2,1.2e,-1").as_bytes()),
+            "cell_a.csv:3: cannot read \"1.2e\" as a number (column z_re_ohm)"
+        );
+        assert_eq!(
+            err_text(with("2,inf,-1").as_bytes()),
+            "cell_a.csv:3: value \"inf\" is not finite (column z_re_ohm)"
+        );
+        assert_eq!(
+            err_text(with("2,1,NaN").as_bytes()),
+            "cell_a.csv:3: value \"NaN\" is not finite (column z_im_ohm)"
+        );
+        assert_eq!(
+            err_text(with("0,1,-1").as_bytes()),
+            "cell_a.csv:3: frequency must be positive, found 0 (column frequency_hz)"
+        );
+        assert_eq!(
+            err_text(with("-5e1,1,-1").as_bytes()),
+            "cell_a.csv:3: frequency must be positive, found -5e1 (column frequency_hz)"
+        );
+        assert_eq!(
+            err_text(with("2,1").as_bytes()),
+            "cell_a.csv:3: expected 3 fields, found 2"
+        );
+        assert_eq!(
+            err_text(b"f,mod,phase\n1,-3,0\n"),
+            "cell_a.csv:2: modulus must not be negative, found -3 (column mod)"
+        );
+        assert_eq!(
+            err_text(b"f,re,im\n1,1,-1\n\xE9\n"),
+            "cell_a.csv:3: line is not valid UTF-8 (byte 0xE9 at column 1; save the file as UTF-8)"
+        );
+    }
+
+    #[test]
+    fn duplicate_frequencies_name_both_lines() {
+        // Header on line 1, data on lines 2..=13; line 12 repeats line 7.
+        let mut text = String::from("frequency_hz,z_re_ohm,z_im_ohm\n");
+        for f in [1, 2, 3, 4, 5, 1000, 6, 7, 8, 9] {
+            text.push_str(&format!("{f},1,-1\n"));
+        }
+        text.push_str("1e3,1,-1\n10,1,-1\n");
+        assert_eq!(
+            err_text(text.as_bytes()),
+            "cell_a.csv:12: duplicate frequency 1000 Hz (also on line 7)"
+        );
+    }
+
+    #[test]
+    fn too_few_points() {
+        let e = parse(b"f,re,im\n1,1,-1\n2,1,-1\n\n# c\n3,1,-1\n4,1,-1\n").unwrap_err();
+        assert!(matches!(
+            e,
+            Error::TooFewPoints {
+                needed: 5,
+                found: 4,
+                ..
+            }
+        ));
+        assert_eq!(
+            e.to_string(),
+            "cell_a.csv: need at least 5 data points, found 4"
+        );
+        assert_eq!(
+            err_text(b"f,re,im\n"),
+            "cell_a.csv: need at least 5 data points, found 0"
+        );
+    }
+
+    #[test]
+    fn empty_file() {
+        assert_eq!(
+            err_text(b""),
+            "cell_a.csv:1: file is empty (expected a header line such as \
+             \"frequency_hz,z_re_ohm,z_im_ohm\")"
+        );
+    }
+
+    #[test]
+    fn new_sorts_and_validates() {
+        let s = Spectrum::new(
+            vec![10.0, 1.0, 100.0],
+            vec![1.0, 2.0, 3.0],
+            vec![-1.0, -2.0, -3.0],
+        )
+        .unwrap();
+        assert_all_close(&s.frequency_hz, &[1.0, 10.0, 100.0]);
+        assert_all_close(&s.z_re_ohm, &[2.0, 1.0, 3.0]);
+        assert_all_close(&s.z_im_ohm, &[-2.0, -1.0, -3.0]);
+
+        let msg = |f: Vec<f64>, re: Vec<f64>, im: Vec<f64>| {
+            Spectrum::new(f, re, im).unwrap_err().to_string()
+        };
+        assert_eq!(
+            msg(vec![1.0, 2.0], vec![1.0], vec![1.0, 1.0]),
+            "2 frequencies but 1 real parts"
+        );
+        assert_eq!(
+            msg(vec![1.0], vec![1.0], vec![]),
+            "1 frequencies but 0 imaginary parts"
+        );
+        assert_eq!(
+            msg(vec![1.0, 0.0], vec![1.0; 2], vec![1.0; 2]),
+            "frequency_hz[1] must be positive and finite, found 0"
+        );
+        assert_eq!(
+            msg(vec![f64::INFINITY], vec![1.0], vec![1.0]),
+            "frequency_hz[0] must be positive and finite, found inf"
+        );
+        assert_eq!(
+            msg(vec![1.0], vec![f64::NAN], vec![1.0]),
+            "z_re_ohm[0] must be finite, found NaN"
+        );
+        assert_eq!(
+            msg(vec![1.0], vec![1.0], vec![f64::NEG_INFINITY]),
+            "z_im_ohm[0] must be finite, found -inf"
+        );
+        assert_eq!(
+            msg(vec![5.0, 1.0, 5.0], vec![1.0; 3], vec![1.0; 3]),
+            "duplicate frequency 5 Hz (indices 0 and 2)"
+        );
+        assert!(Spectrum::new(vec![], vec![], vec![]).unwrap().is_empty());
+    }
+
+    #[test]
+    fn scaled_multiplies_impedance_only() {
+        let s = Spectrum::new(vec![1.0, 2.0], vec![1.0, 2.0], vec![-3.0, 4.0]).unwrap();
+        let t = s.scaled(2.5);
+        assert_all_close(&t.frequency_hz, &[1.0, 2.0]);
+        assert_all_close(&t.z_re_ohm, &[2.5, 5.0]);
+        assert_all_close(&t.z_im_ohm, &[-7.5, 10.0]);
+    }
+
+    #[test]
+    fn read_spectrum_opens_files() {
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("cell_b.csv");
+        std::fs::write(&path, format!("{CANONICAL_HEADER}\n{ROWS}")).unwrap();
+        let s = read_spectrum(&path).unwrap();
+        assert_eq!(s.len(), 5);
+        let (_, layout) = read_spectrum_with_layout(&path).unwrap();
+        assert_eq!(layout.columns, [0, 1, 2]);
+
+        let missing = dir.path().join("nope.csv");
+        let e = read_spectrum(&missing).unwrap_err();
+        assert!(matches!(e, Error::Io { .. }));
+        assert!(
+            e.to_string()
+                .starts_with(&format!("{}: ", missing.display()))
+        );
+    }
+
+    fn token() -> impl Strategy<Value = String> {
+        prop_oneof![
+            Just("1e3".to_string()),
+            Just("-5".to_string()),
+            Just("0".to_string()),
+            Just("inf".to_string()),
+            Just("nan".to_string()),
+            Just(String::new()),
+            Just("1.2e".to_string()),
+            Just("\"".to_string()),
+            Just("\"3\"".to_string()),
+            Just("# x".to_string()),
+            Just("\u{00e9}".to_string()),
+            (-1e6f64..1e6).prop_map(|v| v.to_string()),
+            (1u32..50).prop_map(|v| v.to_string()),
+        ]
+    }
+
+    fn header_name() -> impl Strategy<Value = String> {
+        let names: Vec<&'static str> = FREQUENCY_NAMES
+            .iter()
+            .chain(REAL_NAMES)
+            .chain(IMAG_NAMES)
+            .chain(NEG_IMAG_NAMES)
+            .chain(MODULUS_NAMES)
+            .chain(PHASE_NAMES)
+            .chain(&["x", "Freq (kHz)", "Phase (rad)", ""])
+            .copied()
+            .collect();
+        proptest::sample::select(names).prop_map(str::to_string)
+    }
+
+    proptest! {
+        #[test]
+        fn arbitrary_bytes_never_panic(bytes in proptest::collection::vec(any::<u8>(), 0..400)) {
+            let _ = parse_spectrum(&bytes[..], Path::new(P));
+        }
+
+        #[test]
+        fn near_valid_text_never_panics(
+            header in proptest::collection::vec(header_name(), 1..5),
+            delim in proptest::sample::select(vec![",", ";", "\t", " "]),
+            rows in proptest::collection::vec(proptest::collection::vec(token(), 0..5), 0..10),
+            eol in proptest::sample::select(vec!["\n", "\r\n", "\r"]),
+        ) {
+            let mut text = header.join(delim);
+            for row in &rows {
+                text.push_str(eol);
+                text.push_str(&row.join(delim));
+            }
+            if let Ok(s) = parse_spectrum(text.as_bytes(), Path::new(P)) {
+                prop_assert!(s.len() >= MIN_POINTS);
+                prop_assert!(s.frequency_hz.windows(2).all(|w| w[0] < w[1]));
+                prop_assert!(s.frequency_hz.iter().all(|f| *f > 0.0));
+                prop_assert!(s.z_re_ohm.iter().chain(&s.z_im_ohm).all(|v| v.is_finite()));
+            }
+        }
+
+        #[test]
+        fn row_order_does_not_matter(
+            points in proptest::collection::btree_map(1u32..100_000, (-1e3f64..1e3, -1e3f64..-1e-3), 5..30),
+            seed in any::<u64>(),
+        ) {
+            let mut lines: Vec<String> = points
+                .iter()
+                .map(|(f, (re, im))| format!("{},{re},{im}", f64::from(*f) / 8.0))
+                .collect();
+            let forward = format!("{CANONICAL_HEADER}\n{}\n", lines.join("\n"));
+            // Deterministic shuffle driven by the generated seed.
+            let mut state = seed | 1;
+            for i in (1..lines.len()).rev() {
+                state ^= state << 13;
+                state ^= state >> 7;
+                state ^= state << 17;
+                lines.swap(i, (state % (i as u64 + 1)) as usize);
+            }
+            let shuffled = format!("{CANONICAL_HEADER}\n{}\n", lines.join("\n"));
+            let a = parse_spectrum(forward.as_bytes(), Path::new(P)).unwrap();
+            let b = parse_spectrum(shuffled.as_bytes(), Path::new(P)).unwrap();
+            prop_assert_eq!(a, b);
+        }
+    }
+}

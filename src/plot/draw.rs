@@ -1,0 +1,312 @@
+//! Series, reference lines, legends and notes drawn on panels.
+//!
+//! Legends are drawn here rather than by plotters so that one look serves
+//! both a box inside a panel and a row of keys outside it, and so that the
+//! box can be placed where it hides the fewest data points.
+
+use plotters::coord::Shift;
+use plotters::element::DashedPathElement;
+use plotters::prelude::*;
+use plotters::style::text_anchor::{HPos, Pos, VPos};
+
+use super::axis::Axis;
+use super::common::{Chart, DrawResult, GRID, de, font};
+
+/// How a series is drawn; its legend key is drawn the same way.
+#[derive(Clone, Copy, Debug)]
+pub(crate) enum Mark {
+    /// Solid line, 2 px.
+    Line(RGBColor),
+    /// Dashed line, 2 px.
+    Dashed(RGBColor),
+    /// Hollow circles.
+    Marker(RGBColor),
+    /// Hollow circles joined by a 1 px line.
+    LineMarker(RGBColor),
+}
+
+/// A legend entry.
+pub(crate) type Key<'s> = (Mark, &'s str);
+
+const MARKER_RADIUS: i32 = 4;
+const DASH: (u32, u32) = (7, 5);
+const KEY_FONT: f64 = 15.0;
+/// Width of a key's sample, gap before its text, and gap between keys.
+const SAMPLE: i32 = 24;
+const GAP: i32 = 6;
+const SEP: i32 = 20;
+
+/// Plottable points of `(xs[i], ys[i])`, in plot coordinates.
+pub(crate) fn points(xs: &[f64], ys: &[f64], x: &Axis, y: &Axis) -> Vec<(f64, f64)> {
+    xs.iter()
+        .zip(ys)
+        .filter_map(|(&a, &b)| Some((x.scale.to_plot(a)?, y.scale.to_plot(b)?)))
+        .collect()
+}
+
+/// Runs of consecutive plottable points; an unplottable entry breaks the line.
+fn segments(xs: &[f64], ys: &[f64], x: &Axis, y: &Axis) -> Vec<Vec<(f64, f64)>> {
+    let mut runs = vec![Vec::new()];
+    for (&a, &b) in xs.iter().zip(ys) {
+        match (x.scale.to_plot(a), y.scale.to_plot(b)) {
+            (Some(p), Some(q)) => runs.last_mut().expect("runs starts non-empty").push((p, q)),
+            _ if runs.last().is_some_and(|r| !r.is_empty()) => runs.push(Vec::new()),
+            _ => {}
+        }
+    }
+    runs.retain(|r| !r.is_empty());
+    runs
+}
+
+/// Draws the series `(xs[i], ys[i])` with `mark`, skipping unplottable
+/// entries. A line is broken at them, and a lone point becomes a dot.
+pub(crate) fn draw_series<'a, DB: DrawingBackend + 'a>(
+    chart: &mut Chart<'a, DB>,
+    xs: &[f64],
+    ys: &[f64],
+    x: &Axis,
+    y: &Axis,
+    mark: Mark,
+) -> DrawResult<()> {
+    let (color, width) = match mark {
+        Mark::Marker(c) => return draw_circles(chart, &points(xs, ys, x, y), c),
+        Mark::Line(c) | Mark::Dashed(c) => (c, 2),
+        Mark::LineMarker(c) => (c, 1),
+    };
+    let style = color.stroke_width(width);
+    for run in segments(xs, ys, x, y) {
+        if run.len() == 1 {
+            chart
+                .draw_series(run.iter().map(|&p| Circle::new(p, 3, color.filled())))
+                .map_err(de)?;
+        } else if matches!(mark, Mark::Dashed(_)) {
+            chart
+                .draw_series(DashedLineSeries::new(run, DASH.0, DASH.1, style))
+                .map_err(de)?;
+        } else {
+            chart.draw_series(LineSeries::new(run, style)).map_err(de)?;
+        }
+    }
+    if matches!(mark, Mark::LineMarker(_)) {
+        draw_circles(chart, &points(xs, ys, x, y), color)?;
+    }
+    Ok(())
+}
+
+fn draw_circles<'a, DB: DrawingBackend + 'a>(
+    chart: &mut Chart<'a, DB>,
+    pts: &[(f64, f64)],
+    color: RGBColor,
+) -> DrawResult<()> {
+    let style = color.stroke_width(2);
+    chart
+        .draw_series(pts.iter().map(|&p| Circle::new(p, MARKER_RADIUS, style)))
+        .map_err(de)?;
+    Ok(())
+}
+
+/// Draws a vertical line across the panel at plot coordinate `p`.
+pub(crate) fn draw_vline<'a, DB: DrawingBackend + 'a>(
+    chart: &mut Chart<'a, DB>,
+    p: f64,
+    y: &Axis,
+    mark: Mark,
+) -> DrawResult<()> {
+    let ends = [(p, y.lo), (p, y.hi)];
+    let (color, dashed) = match mark {
+        Mark::Dashed(c) => (c, true),
+        Mark::Line(c) | Mark::Marker(c) | Mark::LineMarker(c) => (c, false),
+    };
+    let style = color.stroke_width(2);
+    if dashed {
+        chart
+            .draw_series(DashedLineSeries::new(ends, DASH.0, DASH.1, style))
+            .map_err(de)?;
+    } else {
+        chart.draw_series(LineSeries::new(ends, style)).map_err(de)?;
+    }
+    Ok(())
+}
+
+/// Draws a thin horizontal reference line at zero if zero is in view.
+pub(crate) fn draw_zero_line<'a, DB: DrawingBackend + 'a>(
+    chart: &mut Chart<'a, DB>,
+    x: &Axis,
+    y: &Axis,
+) -> DrawResult<()> {
+    if y.contains(0.0) {
+        chart
+            .draw_series(LineSeries::new(
+                [(x.lo, 0.0), (x.hi, 0.0)],
+                RGBColor(120, 120, 120).stroke_width(1),
+            ))
+            .map_err(de)?;
+    }
+    Ok(())
+}
+
+/// Draws the sample of `mark` with its left end at pixel `(x, y)`.
+fn draw_sample<DB: DrawingBackend>(
+    area: &DrawingArea<DB, Shift>,
+    mark: Mark,
+    (x, y): (i32, i32),
+) -> DrawResult<()> {
+    let line = [(x, y), (x + SAMPLE, y)];
+    let dot = (x + SAMPLE / 2, y);
+    match mark {
+        Mark::Line(c) => area.draw(&PathElement::new(line, c.stroke_width(2))),
+        Mark::Dashed(c) => area.draw(&DashedPathElement::new(line, 6, 4, c.stroke_width(2))),
+        Mark::Marker(c) => area.draw(&Circle::new(dot, MARKER_RADIUS, c.stroke_width(2))),
+        Mark::LineMarker(c) => {
+            area.draw(&PathElement::new(line, c.stroke_width(1)))
+                .map_err(de)?;
+            area.draw(&Circle::new(dot, MARKER_RADIUS, c.stroke_width(2)))
+        }
+    }
+    .map_err(de)
+}
+
+fn text_width<DB: DrawingBackend>(area: &DrawingArea<DB, Shift>, text: &str) -> DrawResult<i32> {
+    let (w, _) = area.estimate_text_size(text, &font(KEY_FONT)).map_err(de)?;
+    Ok(w as i32)
+}
+
+/// Width in pixels of `keys` laid out in one row.
+pub(crate) fn row_width<DB: DrawingBackend>(
+    area: &DrawingArea<DB, Shift>,
+    keys: &[Key<'_>],
+) -> DrawResult<i32> {
+    let mut total = 0;
+    for (_, label) in keys {
+        total += SAMPLE + GAP + text_width(area, label)?;
+    }
+    Ok(total + SEP * (keys.len() as i32 - 1).max(0))
+}
+
+/// Draws `keys` in one row starting at pixel `x`, centred on pixel row `y`
+/// of `area`.
+pub(crate) fn draw_key_row<DB: DrawingBackend>(
+    area: &DrawingArea<DB, Shift>,
+    keys: &[Key<'_>],
+    (mut x, y): (i32, i32),
+) -> DrawResult<()> {
+    let style = font(KEY_FONT).pos(Pos::new(HPos::Left, VPos::Center));
+    for &(mark, label) in keys {
+        draw_sample(area, mark, (x, y))?;
+        x += SAMPLE + GAP;
+        area.draw(&Text::new(label, (x, y), style.clone()))
+            .map_err(de)?;
+        x += text_width(area, label)? + SEP;
+    }
+    Ok(())
+}
+
+/// Draws `keys` in a row right-aligned above the plotting area of `chart`,
+/// in the strip a panel built with `key_room` leaves free.
+pub(crate) fn draw_keys_above<'a, DB: DrawingBackend + 'a>(
+    area: &DrawingArea<DB, Shift>,
+    chart: &Chart<'a, DB>,
+    keys: &[Key<'_>],
+) -> DrawResult<()> {
+    let (xr, yr) = chart.plotting_area().get_pixel_range();
+    let (bx, by) = area.get_base_pixel();
+    let width = row_width(area, keys)?;
+    draw_key_row(area, keys, (xr.end - bx - width, yr.start - by - 15))
+}
+
+/// Draws a legend box inside the plotting area, in the corner where it
+/// covers least of the polylines `avoid` (plot coordinates; a marker
+/// series counts as the polyline through its markers).
+pub(crate) fn draw_legend<'a, DB: DrawingBackend + 'a>(
+    chart: &Chart<'a, DB>,
+    keys: &[Key<'_>],
+    avoid: &[&[(f64, f64)]],
+) -> DrawResult<()> {
+    const PAD: i32 = 8;
+    const ROW: i32 = 22;
+    const INSET: i32 = 10;
+    if keys.is_empty() {
+        return Ok(());
+    }
+    let plot = chart.plotting_area();
+    let area = plot.strip_coord_spec();
+    let (pw, ph) = area.dim_in_pixel();
+    let (pw, ph) = (pw as i32, ph as i32);
+    let mut text_w = 0;
+    for (_, label) in keys {
+        text_w = text_w.max(text_width(&area, label)?);
+    }
+    let w = 2 * PAD + SAMPLE + GAP + text_w;
+    let h = 2 * PAD + ROW * keys.len() as i32 - 6;
+    let (bx, by) = area.get_base_pixel();
+    let to_px = |p: &(f64, f64)| {
+        let (x, y) = plot.map_coordinate(p);
+        (f64::from(x - bx), f64::from(y - by))
+    };
+    // Samples along each polyline, so that a steep line between two
+    // distant points still counts as crossing the box.
+    let mut samples = Vec::new();
+    for line in avoid {
+        let px: Vec<(f64, f64)> = line.iter().map(to_px).collect();
+        samples.extend(px.first().copied());
+        for pair in px.windows(2) {
+            let ((x0, y0), (x1, y1)) = (pair[0], pair[1]);
+            samples.extend((1..=8).map(|i| {
+                let t = f64::from(i) / 8.0;
+                (x0 + t * (x1 - x0), y0 + t * (y1 - y0))
+            }));
+        }
+    }
+    let corners = [
+        (pw - INSET - w, INSET),
+        (INSET, INSET),
+        (pw - INSET - w, ph - INSET - h),
+        (INSET, ph - INSET - h),
+    ];
+    let covered = |&(x0, y0): &(i32, i32)| {
+        let m = f64::from(MARKER_RADIUS + 2);
+        let (x0, y0) = (f64::from(x0) - m, f64::from(y0) - m);
+        let (x1, y1) = (x0 + f64::from(w) + 2.0 * m, y0 + f64::from(h) + 2.0 * m);
+        samples
+            .iter()
+            .filter(|&&(x, y)| x0 <= x && x <= x1 && y0 <= y && y <= y1)
+            .count()
+    };
+    // `min_by_key` keeps the first of equal counts: upper right is preferred.
+    let (x0, y0) = corners
+        .into_iter()
+        .min_by_key(covered)
+        .expect("four corners");
+    let corners = [(x0, y0), (x0 + w, y0 + h)];
+    area.draw(&Rectangle::new(corners, WHITE.mix(0.9).filled()))
+        .map_err(de)?;
+    area.draw(&Rectangle::new(corners, GRID.stroke_width(1)))
+        .map_err(de)?;
+    let style = font(KEY_FONT).pos(Pos::new(HPos::Left, VPos::Center));
+    for (i, &(mark, label)) in keys.iter().enumerate() {
+        let y = y0 + PAD + 8 + ROW * i as i32;
+        draw_sample(&area, mark, (x0 + PAD, y))?;
+        let at = (x0 + PAD + SAMPLE + GAP, y);
+        area.draw(&Text::new(label, at, style.clone()))
+            .map_err(de)?;
+    }
+    Ok(())
+}
+
+/// Writes `text` centred horizontally on `area`, at `y` px from its top
+/// (`None`: centred vertically too). Used for panels with nothing to plot.
+pub(crate) fn draw_note<DB: DrawingBackend>(
+    area: &DrawingArea<DB, Shift>,
+    text: &str,
+    y: Option<i32>,
+    size: f64,
+) -> DrawResult<()> {
+    let (w, h) = area.dim_in_pixel();
+    let (v, y) = match y {
+        Some(y) => (VPos::Top, y),
+        None => (VPos::Center, h as i32 / 2),
+    };
+    let style = font(size).pos(Pos::new(HPos::Center, v));
+    area.draw(&Text::new(text, (w as i32 / 2, y), style))
+        .map_err(de)
+}

@@ -1,0 +1,232 @@
+//! Output files of an inversion: the CSV tables and the JSON summary.
+//!
+//! These names and columns are a contract that scripts rely on:
+//! - `drt.csv`: `tau_s,gamma_ohm`
+//! - `fit.csv`: `frequency_hz,z_re_ohm,z_im_ohm,fit_re_ohm,fit_im_ohm,residual_re_rel,residual_im_rel`
+//! - `lambda.csv`: one row per grid value of lambda, one column per computed rule
+//! - `summary.json`: see [`Summary`]
+
+use crate::invert::{InvertParams, Inversion, LambdaChoice};
+use crate::io::Spectrum;
+use crate::lambda::LambdaRule;
+use crate::peaks::Peak;
+use serde::Serialize;
+use std::fmt::Write as _;
+
+/// Number format used in every CSV: 10 significant digits, exponent form.
+pub fn num(v: f64) -> String {
+    if v.is_finite() { format!("{v:.9e}") } else { String::new() }
+}
+
+/// `drt.csv`.
+pub fn drt_csv(inv: &Inversion) -> String {
+    let mut s = String::from("tau_s,gamma_ohm\n");
+    for (t, g) in inv.tau_s.iter().zip(&inv.gamma_ohm) {
+        let _ = writeln!(s, "{},{}", num(*t), num(*g));
+    }
+    s
+}
+
+/// `fit.csv`.
+pub fn fit_csv(spectrum: &Spectrum, inv: &Inversion) -> String {
+    let mut s = String::from(
+        "frequency_hz,z_re_ohm,z_im_ohm,fit_re_ohm,fit_im_ohm,residual_re_rel,residual_im_rel\n",
+    );
+    for i in 0..spectrum.len() {
+        let _ = writeln!(
+            s,
+            "{},{},{},{},{},{},{}",
+            num(spectrum.frequency_hz[i]),
+            num(spectrum.z_re_ohm[i]),
+            num(spectrum.z_im_ohm[i]),
+            num(inv.fit_re_ohm[i]),
+            num(inv.fit_im_ohm[i]),
+            num(inv.residual_re_rel[i]),
+            num(inv.residual_im_rel[i]),
+        );
+    }
+    s
+}
+
+/// Column name of a rule's score in `lambda.csv`.
+pub fn rule_column(rule: LambdaRule) -> &'static str {
+    match rule {
+        LambdaRule::Gcv => "gcv_score",
+        LambdaRule::Lcurve => "lcurve_curvature",
+        LambdaRule::Discrepancy => "discrepancy_ratio",
+        LambdaRule::Recv => "recv_score",
+    }
+}
+
+/// `lambda.csv`, or `None` when lambda was fixed.
+pub fn lambda_csv(inv: &Inversion) -> Option<String> {
+    let c = inv.curves.as_ref()?;
+    let mut s = String::from("lambda,residual_sq,penalty_sq,dof");
+    for r in &c.rules {
+        s.push(',');
+        s.push_str(rule_column(r.rule));
+    }
+    s.push('\n');
+    for i in 0..c.lambda.len() {
+        let _ = write!(
+            s,
+            "{},{},{},{}",
+            num(c.lambda[i]),
+            num(c.residual_sq[i]),
+            num(c.penalty_sq[i]),
+            num(c.dof[i])
+        );
+        for r in &c.rules {
+            let _ = write!(s, ",{}", num(r.score[i]));
+        }
+        s.push('\n');
+    }
+    Some(s)
+}
+
+/// One peak in `summary.json`.
+#[derive(Clone, Debug, Serialize)]
+pub struct PeakSummary {
+    /// Time constant at the maximum (s).
+    pub tau_s: f64,
+    /// 1/(2 pi tau) (Hz).
+    pub frequency_hz: f64,
+    /// Area between the neighbouring minima (ohm).
+    pub r_ohm: f64,
+    /// gamma at the maximum (ohm).
+    pub gamma_ohm: f64,
+}
+
+impl From<&Peak> for PeakSummary {
+    fn from(p: &Peak) -> Self {
+        Self {
+            tau_s: p.tau_s,
+            frequency_hz: p.frequency_hz,
+            r_ohm: p.r_ohm,
+            gamma_ohm: p.gamma_ohm,
+        }
+    }
+}
+
+/// What the rules chose, for the record.
+#[derive(Clone, Debug, Serialize)]
+pub struct RuleChoice {
+    /// Rule name.
+    pub rule: LambdaRule,
+    /// Its choice, or null when it found none.
+    pub lambda: Option<f64>,
+}
+
+/// Settings that shaped the result.
+#[derive(Clone, Debug, Serialize)]
+pub struct Settings {
+    /// Basis family.
+    pub basis: String,
+    /// Penalty derivative order.
+    pub penalty_order: usize,
+    /// Grid points per decade.
+    pub per_decade: f64,
+    /// Grid ends (s).
+    pub tau_min_s: f64,
+    /// Grid ends (s).
+    pub tau_max_s: f64,
+    /// Number of basis functions.
+    pub n_tau: usize,
+    /// Residual weighting.
+    pub weighting: String,
+    /// Whether an inductance was modelled.
+    pub inductance_modelled: bool,
+    /// Whether a series capacitance was modelled.
+    pub series_capacitance_modelled: bool,
+    /// Lower bound applied to automatic lambda.
+    pub lambda_floor: f64,
+}
+
+/// `summary.json`.
+#[derive(Clone, Debug, Serialize)]
+pub struct Summary {
+    /// Input file as given.
+    pub input: String,
+    /// Number of frequencies.
+    pub n_points: usize,
+    /// Series resistance (ohm).
+    pub r_inf_ohm: f64,
+    /// Integral of gamma (ohm).
+    pub r_pol_ohm: f64,
+    /// Series inductance (H), or null when not modelled.
+    pub inductance_h: Option<f64>,
+    /// Series capacitance (F), or null when not modelled.
+    pub series_capacitance_f: Option<f64>,
+    /// The lambda used.
+    pub lambda: f64,
+    /// The rule that chose it, or "fixed".
+    pub lambda_rule: String,
+    /// Whether the rule's choice was raised to the floor.
+    pub lambda_floored: bool,
+    /// Every computed rule's own choice.
+    pub lambda_candidates: Vec<RuleChoice>,
+    /// RMS of the relative residuals (fraction).
+    pub residual_rms_rel: f64,
+    /// Peaks in ascending tau.
+    pub peaks: Vec<PeakSummary>,
+    /// Whether the solver met its optimality conditions.
+    pub solver_status: crate::solve::SolveStatus,
+    /// Settings used.
+    pub settings: Settings,
+}
+
+impl Summary {
+    /// Collects the summary of an inversion.
+    pub fn new(input: &str, spectrum: &Spectrum, params: &InvertParams, inv: &Inversion) -> Self {
+        let tau = inv.grid.tau_s();
+        Self {
+            input: input.to_string(),
+            n_points: spectrum.len(),
+            r_inf_ohm: inv.r_inf_ohm,
+            r_pol_ohm: inv.r_pol_ohm,
+            inductance_h: inv.inductance_h,
+            series_capacitance_f: inv.series_capacitance_f.filter(|c| c.is_finite()),
+            lambda: inv.lambda,
+            lambda_rule: match (params.lambda, inv.lambda_rule) {
+                (LambdaChoice::Fixed(_), _) | (_, None) => "fixed".into(),
+                (_, Some(r)) => r.name().into(),
+            },
+            lambda_floored: inv.lambda_floored,
+            lambda_candidates: inv
+                .curves
+                .as_ref()
+                .map(|c| {
+                    c.rules
+                        .iter()
+                        .map(|r| RuleChoice {
+                            rule: r.rule,
+                            lambda: r.chosen,
+                        })
+                        .collect()
+                })
+                .unwrap_or_default(),
+            residual_rms_rel: inv.residual_rms_rel,
+            peaks: inv.peaks.iter().map(PeakSummary::from).collect(),
+            solver_status: inv.info.status,
+            settings: Settings {
+                basis: params.basis.to_string(),
+                penalty_order: params.penalty_order,
+                per_decade: params.per_decade,
+                tau_min_s: tau[0],
+                tau_max_s: tau[tau.len() - 1],
+                n_tau: tau.len(),
+                weighting: format!("{:?}", params.weighting).to_lowercase(),
+                inductance_modelled: inv.inductance_h.is_some(),
+                series_capacitance_modelled: inv.series_capacitance_f.is_some(),
+                lambda_floor: params.lambda_floor,
+            },
+        }
+    }
+
+    /// Pretty JSON text with a final newline.
+    pub fn to_json(&self) -> String {
+        let mut s = serde_json::to_string_pretty(self).unwrap_or_else(|e| format!("{{\"error\":\"{e}\"}}"));
+        s.push('\n');
+        s
+    }
+}

@@ -1,0 +1,11 @@
+//! Integration tests: the `taumap` binary run in fresh temporary directories.
+
+#[path = "cli/util.rs"]
+mod util;
+
+#[path = "cli/errors.rs"]
+mod errors;
+#[path = "cli/invert.rs"]
+mod invert;
+#[path = "cli/readme.rs"]
+mod readme;

@@ -1,0 +1,104 @@
+//! The binary on real files: outputs present, JSON keys, CSV headers.
+
+use crate::util::{repo_root, taumap, tempdir, voigt_csv};
+
+#[test]
+fn demo_data_inverts_with_every_output() {
+    let dir = tempdir();
+    let input = repo_root().join("demo-data/button-cell-700c.csv");
+    let out = dir.path().join("out");
+    let run = taumap(
+        dir.path(),
+        &["invert", input.to_str().unwrap(), "--out", out.to_str().unwrap()],
+    );
+    assert_eq!(run.code, 0, "{}", run.explain());
+    for name in [
+        "drt.csv", "fit.csv", "lambda.csv", "summary.json", "drt.svg", "drt.png", "nyquist.svg",
+        "nyquist.png", "bode.svg", "bode.png", "lambda.svg", "lambda.png",
+    ] {
+        let p = out.join(name);
+        assert!(p.exists(), "missing {name}\n{}", run.explain());
+        assert!(std::fs::metadata(&p).unwrap().len() > 100, "{name} is too small");
+    }
+    let png = std::fs::read(out.join("drt.png")).unwrap();
+    assert_eq!(&png[..8], b"\x89PNG\r\n\x1a\n");
+    let drt = std::fs::read_to_string(out.join("drt.csv")).unwrap();
+    assert!(drt.starts_with("tau_s,gamma_ohm\n"));
+    let fit = std::fs::read_to_string(out.join("fit.csv")).unwrap();
+    assert!(fit.starts_with(
+        "frequency_hz,z_re_ohm,z_im_ohm,fit_re_ohm,fit_im_ohm,residual_re_rel,residual_im_rel\n"
+    ));
+    let lam = std::fs::read_to_string(out.join("lambda.csv")).unwrap();
+    assert!(lam.starts_with("lambda,residual_sq,penalty_sq,dof,gcv_score,lcurve_curvature,discrepancy_ratio,recv_score\n"));
+
+    let json: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join("summary.json")).unwrap()).unwrap();
+    for key in ["r_inf_ohm", "r_pol_ohm", "inductance_h", "lambda", "lambda_rule", "residual_rms_rel", "peaks"] {
+        assert!(json.get(key).is_some(), "summary.json lacks {key}");
+    }
+    // The demo cell (src/cli/demo.rs): R_inf 0.150 ohm, L 80 nH, R_pol 0.250 ohm.
+    let r_inf = json["r_inf_ohm"].as_f64().unwrap();
+    let r_pol = json["r_pol_ohm"].as_f64().unwrap();
+    let l = json["inductance_h"].as_f64().unwrap();
+    assert!((r_inf - 0.150).abs() < 0.005, "r_inf {r_inf}");
+    assert!((r_pol - 0.250).abs() < 0.0075, "r_pol {r_pol}");
+    assert!((l / 8e-8 - 1.0).abs() < 0.05, "inductance {l}");
+    let peaks = json["peaks"].as_array().unwrap();
+    assert!(peaks.len() >= 3, "{peaks:?}");
+    let taus: Vec<f64> = peaks.iter().map(|p| p["tau_s"].as_f64().unwrap()).collect();
+    assert!(taus.windows(2).all(|w| w[0] < w[1]), "ascending tau");
+    for p in peaks {
+        for k in ["tau_s", "frequency_hz", "r_ohm", "gamma_ohm"] {
+            assert!(p[k].as_f64().is_some(), "peak lacks {k}");
+        }
+    }
+}
+
+#[test]
+fn json_flag_prints_the_summary_and_default_dir_is_beside_input() {
+    let dir = tempdir();
+    std::fs::write(dir.path().join("rc.csv"), voigt_csv()).unwrap();
+    let run = taumap(dir.path(), &["invert", "rc.csv", "--json", "--no-plots"]);
+    assert_eq!(run.code, 0, "{}", run.explain());
+    let json: serde_json::Value = serde_json::from_str(&run.stdout).expect("stdout is JSON");
+    let file: serde_json::Value = serde_json::from_str(
+        &std::fs::read_to_string(dir.path().join("rc-taumap/summary.json")).unwrap(),
+    )
+    .unwrap();
+    assert_eq!(json, file);
+    // Voigt element R = 50 ohm, tau = 1 ms (analytic): one peak.
+    let peaks = json["peaks"].as_array().unwrap();
+    assert_eq!(peaks.len(), 1, "{}", run.stdout);
+    assert!((peaks[0]["tau_s"].as_f64().unwrap().log10() + 3.0).abs() < 0.05);
+    assert!((json["r_pol_ohm"].as_f64().unwrap() - 50.0).abs() < 0.5);
+    assert!(json["inductance_h"].is_null());
+}
+
+#[test]
+fn fixed_lambda_and_options_are_honoured() {
+    let dir = tempdir();
+    std::fs::write(dir.path().join("rc.csv"), voigt_csv()).unwrap();
+    let run = taumap(
+        dir.path(),
+        &["invert", "rc.csv", "--lambda", "1e-4", "--basis", "hat", "--penalty-order", "0", "--per-decade", "8", "--json", "--no-plots"],
+    );
+    assert_eq!(run.code, 0, "{}", run.explain());
+    let json: serde_json::Value = serde_json::from_str(&run.stdout).unwrap();
+    assert_eq!(json["lambda"].as_f64().unwrap(), 1e-4);
+    assert_eq!(json["lambda_rule"], "fixed");
+    assert_eq!(json["settings"]["basis"], "hat");
+    assert!(!dir.path().join("rc-taumap/lambda.csv").exists());
+    assert!((json["r_pol_ohm"].as_f64().unwrap() - 50.0).abs() < 1.0);
+}
+
+#[test]
+fn demo_command_writes_data_and_plots() {
+    let dir = tempdir();
+    let run = taumap(dir.path(), &["demo"]);
+    assert_eq!(run.code, 0, "{}", run.explain());
+    assert!(run.stdout.contains("drt.png"), "{}", run.explain());
+    let written = std::fs::read_to_string(dir.path().join("demo-data/button-cell-700c.csv")).unwrap();
+    let shipped = std::fs::read_to_string(repo_root().join("demo-data/button-cell-700c.csv")).unwrap();
+    assert_eq!(written, shipped, "checked-in demo data matches the generator");
+    assert!(dir.path().join("demo-data/button-cell-700c-taumap/summary.json").exists());
+}
