@@ -14,8 +14,15 @@ use taumap::synth::{Element, Series, add_noise, log_frequencies};
 fn spectrum() -> Spectrum {
     let cell = Series(vec![
         Element::Resistor { r_ohm: 5.0 },
-        Element::Zarc { r_ohm: 20.0, tau_s: 1e-4, phi: 0.9 },
-        Element::Voigt { r_ohm: 30.0, tau_s: 1e-3 },
+        Element::Zarc {
+            r_ohm: 20.0,
+            tau_s: 1e-4,
+            phi: 0.9,
+        },
+        Element::Voigt {
+            r_ohm: 30.0,
+            tau_s: 1e-3,
+        },
     ]);
     let f = log_frequencies(1e-2, 1e6, 10.0);
     assert_eq!(f.len(), 81);

@@ -22,13 +22,26 @@ fn ladder() -> Vec<Case> {
     vec![
         Case {
             name: "Voigt",
-            cell: Series(vec![Resistor { r_ohm: 10.0 }, Voigt { r_ohm: 50.0, tau_s: 1e-3 }]),
+            cell: Series(vec![
+                Resistor { r_ohm: 10.0 },
+                Voigt {
+                    r_ohm: 50.0,
+                    tau_s: 1e-3,
+                },
+            ]),
             peaks_tau_s: vec![1e-3],
             first_only: false,
         },
         Case {
             name: "ZARC phi=0.8",
-            cell: Series(vec![Resistor { r_ohm: 10.0 }, Zarc { r_ohm: 50.0, tau_s: 1e-3, phi: 0.8 }]),
+            cell: Series(vec![
+                Resistor { r_ohm: 10.0 },
+                Zarc {
+                    r_ohm: 50.0,
+                    tau_s: 1e-3,
+                    phi: 0.8,
+                },
+            ]),
             peaks_tau_s: vec![1e-3],
             first_only: false,
         },
@@ -36,8 +49,16 @@ fn ladder() -> Vec<Case> {
             name: "2 ZARC, 1 decade",
             cell: Series(vec![
                 Resistor { r_ohm: 10.0 },
-                Zarc { r_ohm: 30.0, tau_s: 1e-4, phi: 0.85 },
-                Zarc { r_ohm: 40.0, tau_s: 1e-3, phi: 0.85 },
+                Zarc {
+                    r_ohm: 30.0,
+                    tau_s: 1e-4,
+                    phi: 0.85,
+                },
+                Zarc {
+                    r_ohm: 40.0,
+                    tau_s: 1e-3,
+                    phi: 0.85,
+                },
             ]),
             peaks_tau_s: vec![1e-4, 1e-3],
             first_only: false,
@@ -46,15 +67,28 @@ fn ladder() -> Vec<Case> {
             name: "ZARC + Voigt",
             cell: Series(vec![
                 Resistor { r_ohm: 5.0 },
-                Zarc { r_ohm: 20.0, tau_s: 1e-4, phi: 0.9 },
-                Voigt { r_ohm: 30.0, tau_s: 1e-3 },
+                Zarc {
+                    r_ohm: 20.0,
+                    tau_s: 1e-4,
+                    phi: 0.9,
+                },
+                Voigt {
+                    r_ohm: 30.0,
+                    tau_s: 1e-3,
+                },
             ]),
             peaks_tau_s: vec![1e-4, 1e-3],
             first_only: false,
         },
         Case {
             name: "finite Warburg",
-            cell: Series(vec![Resistor { r_ohm: 5.0 }, WarburgFinite { r_ohm: 20.0, tau_s: 1.0 }]),
+            cell: Series(vec![
+                Resistor { r_ohm: 5.0 },
+                WarburgFinite {
+                    r_ohm: 20.0,
+                    tau_s: 1.0,
+                },
+            ]),
             // first line tau_W/((1/2)^2 pi^2)
             peaks_tau_s: vec![1.0 / (0.25 * std::f64::consts::PI.powi(2))],
             first_only: true,
@@ -67,10 +101,16 @@ fn main() {
         .skip(1)
         .filter_map(|s| s.parse().ok())
         .collect();
-    let orders = if orders.is_empty() { vec![0, 1, 2] } else { orders };
+    let orders = if orders.is_empty() {
+        vec![0, 1, 2]
+    } else {
+        orders
+    };
     let seeds = [11u64, 12, 13];
     let noises = [0.001, 0.01];
-    println!("| order | rule | passed | peak-count ok | mean abs log10 tau error (dec) | mean abs R_pol error (%) |");
+    println!(
+        "| order | rule | passed | peak-count ok | mean abs log10 tau error (dec) | mean abs R_pol error (%) |"
+    );
     println!("|---|---|---|---|---|---|");
     for &order in &orders {
         for rule in LambdaRule::ALL {
@@ -118,7 +158,10 @@ fn main() {
                                 .iter()
                                 .map(|p| format!("{:.2}@{:.2}", p.tau_s.log10(), p.r_ohm))
                                 .collect();
-                            eprintln!("fail k={order} {rule} {} noise={noise} seed={seed}: {got:?}", case.name);
+                            eprintln!(
+                                "fail k={order} {rule} {} noise={noise} seed={seed}: {got:?}",
+                                case.name
+                            );
                         }
                     }
                 }

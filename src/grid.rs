@@ -63,7 +63,12 @@ impl TauGrid {
 
     /// The default grid for a spectrum measured from `f_min_hz` to `f_max_hz`:
     /// from `1/(2 pi f_max) / 10^extend` to `10^extend / (2 pi f_min)`.
-    pub fn for_band(f_min_hz: f64, f_max_hz: f64, per_decade: f64, extend_decades: f64) -> Result<Self> {
+    pub fn for_band(
+        f_min_hz: f64,
+        f_max_hz: f64,
+        per_decade: f64,
+        extend_decades: f64,
+    ) -> Result<Self> {
         if !(extend_decades.is_finite() && (0.0..=4.0).contains(&extend_decades)) {
             return Err(Error::Param {
                 name: "extend-decades",

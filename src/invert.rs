@@ -97,6 +97,9 @@ pub struct InvertParams {
     pub peaks: PeakOptions,
     /// Output samples of gamma per grid step.
     pub oversample: usize,
+    /// Weight of the prior against DRT mass beyond the measured band,
+    /// relative to the data's scale (0 switches it off).
+    pub extension_prior: f64,
 }
 
 impl Default for InvertParams {
@@ -121,6 +124,7 @@ impl Default for InvertParams {
             all_curves: false,
             peaks: PeakOptions::default(),
             oversample: 5,
+            extension_prior: 1e-2,
         }
     }
 }
@@ -150,6 +154,13 @@ impl InvertParams {
                 name: "lambda-floor",
                 expected: "a non-negative number",
                 value: self.lambda_floor,
+            });
+        }
+        if !(self.extension_prior.is_finite() && self.extension_prior >= 0.0) {
+            return Err(Error::Param {
+                name: "extension-prior",
+                expected: "a non-negative number",
+                value: self.extension_prior,
             });
         }
         if !(1..=50).contains(&self.oversample) {
@@ -290,8 +301,10 @@ fn build(spectrum: &Spectrum, p: &InvertParams) -> Result<Design> {
         .map(|(r, i)| r.hypot(*i))
         .collect();
     let z_scale = modulus.iter().copied().fold(0.0, f64::max);
-    if !(z_scale > 0.0) {
-        return Err(Error::Config("the impedance is zero at every frequency".into()));
+    if z_scale.is_nan() || z_scale <= 0.0 {
+        return Err(Error::Config(
+            "the impedance is zero at every frequency".into(),
+        ));
     }
     let weight: Vec<f64> = match p.weighting {
         Weighting::Modulus => modulus
@@ -336,9 +349,27 @@ fn build(spectrum: &Spectrum, p: &InvertParams) -> Result<Design> {
         b[m + i] = weight[i] * spectrum.z_im_ohm[i];
     }
     let mut penalty = DMatrix::zeros(ncols, ncols);
-    penalty.view_mut((0, 0), (n_gamma, n_gamma)).copy_from(&gram);
+    penalty
+        .view_mut((0, 0), (n_gamma, n_gamma))
+        .copy_from(&gram);
+    let mut problem = Tikhonov::new(a, b, penalty);
+    if p.extension_prior > 0.0 {
+        let band = (
+            (2.0 * PI * f_max).recip().ln(),
+            (2.0 * PI * f_min).recip().ln(),
+        );
+        let ext = extension_gram(&basis, band);
+        let ata = problem.design().tr_mul(problem.design());
+        let data_scale =
+            (0..n_gamma).map(|j| ata[(j, j)]).sum::<f64>() / (n_gamma as f64 * ext_self(&basis));
+        let mut prior = DMatrix::zeros(ncols, ncols);
+        prior
+            .view_mut((0, 0), (n_gamma, n_gamma))
+            .copy_from(&(ext * (p.extension_prior * data_scale)));
+        problem = problem.with_prior(prior);
+    }
     Ok(Design {
-        problem: Tikhonov::new(a, b, penalty),
+        problem,
         basis,
         grid,
         z_scale,
@@ -361,6 +392,51 @@ pub fn problem(spectrum: &Spectrum, params: &InvertParams) -> Result<Tikhonov> {
     Ok(build(spectrum, params)?.problem)
 }
 
+/// `integral phi_j(y)^2 dy`, the self-overlap of one basis function.
+fn ext_self(basis: &Basis) -> f64 {
+    let offs = basis.quadrature_offsets();
+    offs.iter().map(|&(u, w)| w * basis.shape(u)).sum()
+}
+
+/// Gram matrix of the extension prior,
+/// `P_ij = integral w(y) phi_i(y) phi_j(y) dy` with `w(y)` the squared distance
+/// in decades from `y = ln tau` to the measured band `[band.0, band.1]`
+/// (zero inside). Mass beyond the band is allowed but costs more the further
+/// out it sits, so the extension reduces truncation error without absorbing
+/// noise as resistance (our choice; see docs/lambda-rules.md).
+fn extension_gram(basis: &Basis, band: (f64, f64)) -> DMatrix<f64> {
+    let n = basis.len();
+    let c = basis.centers();
+    let h = basis.step() / 8.0;
+    let reach = basis.half_support();
+    let (y0, y1) = (c[0] - reach, c[n - 1] + reach);
+    let steps = ((y1 - y0) / h).ceil() as usize;
+    let mut m = DMatrix::zeros(n, n);
+    for s in 0..=steps {
+        let y = y0 + s as f64 * h;
+        let d = if y < band.0 {
+            (band.0 - y) / std::f64::consts::LN_10
+        } else if y > band.1 {
+            (y - band.1) / std::f64::consts::LN_10
+        } else {
+            continue;
+        };
+        let w = d * d * h;
+        let lo = (((y - reach - c[0]) / basis.step()).floor().max(0.0)) as usize;
+        let hi = ((((y + reach - c[0]) / basis.step()).ceil()) as usize).min(n - 1);
+        for i in lo..=hi {
+            let pi = basis.shape(y - c[i]);
+            if pi == 0.0 {
+                continue;
+            }
+            for j in lo..=hi {
+                m[(i, j)] += w * pi * basis.shape(y - c[j]);
+            }
+        }
+    }
+    m
+}
+
 /// Inverts a spectrum onto a DRT.
 ///
 /// Fails when the parameters are invalid, the grid cannot be built, or the
@@ -368,6 +444,7 @@ pub fn problem(spectrum: &Spectrum, params: &InvertParams) -> Result<Tikhonov> {
 pub fn invert(spectrum: &Spectrum, params: &InvertParams) -> Result<Inversion> {
     params.validate()?;
     let d = build(spectrum, params)?;
+    let mut warm: Vec<usize> = Vec::new();
     let (lambda_used, rule, floored, curves, all_converged) = match params.lambda {
         LambdaChoice::Fixed(v) => (v, None, false, None, true),
         LambdaChoice::Rule(rule) => {
@@ -397,6 +474,16 @@ pub fn invert(spectrum: &Spectrum, params: &InvertParams) -> Result<Inversion> {
                 .and_then(|c| c.chosen)
                 .unwrap_or(params.lambda_floor.max(params.lambda_grid.min));
             let floored = chosen < params.lambda_floor;
+            let used = chosen.max(params.lambda_floor);
+            // Warm-start the final solve from the nearest grid point.
+            if let Some(p) = path.points.iter().min_by(|a, b| {
+                (a.solution.lambda / used)
+                    .ln()
+                    .abs()
+                    .total_cmp(&(b.solution.lambda / used).ln().abs())
+            }) {
+                warm.clone_from(&p.solution.free);
+            }
             let curves = LambdaCurves {
                 lambda: lambdas,
                 residual_sq: path.points.iter().map(|p| p.solution.residual_sq).collect(),
@@ -413,9 +500,19 @@ pub fn invert(spectrum: &Spectrum, params: &InvertParams) -> Result<Inversion> {
             )
         }
     };
-    let sol = d.problem.solve(lambda_used, &[]);
+    let sol = d.problem.solve(lambda_used, &warm);
     let dof = d.problem.influence_trace(lambda_used, &sol.free);
-    finish(spectrum, params, d, sol, dof, rule, floored, curves, all_converged)
+    finish(
+        spectrum,
+        params,
+        d,
+        sol,
+        dof,
+        rule,
+        floored,
+        curves,
+        all_converged,
+    )
 }
 
 #[allow(clippy::too_many_arguments)]
@@ -436,7 +533,11 @@ fn finish(
     let inductance_h = d.col_l.map(|c| sol.x[c] * d.z_scale / d.omega_max);
     let series_capacitance_f = d.col_c.map(|c| {
         let inv_c = sol.x[c] * d.z_scale * d.omega_min;
-        if inv_c > 0.0 { 1.0 / inv_c } else { f64::INFINITY }
+        if inv_c > 0.0 {
+            1.0 / inv_c
+        } else {
+            f64::INFINITY
+        }
     });
     let pred = d.problem.predict(&sol.x);
     let fit_re_ohm: Vec<f64> = (0..m).map(|i| pred[i] / d.weight[i]).collect();

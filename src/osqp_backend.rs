@@ -156,6 +156,10 @@ pub struct OsqpSolution {
 /// when OSQP finds `P` not positive semidefinite or the objective unbounded
 /// below on `x ≥ 0`, or when OSQP fails; [`Error::Param`] or
 /// [`Error::Config`] for unusable `opts` (see [`OsqpOptions::validate`]).
+/// On some of these paths (a `P` that is not positive semidefinite, an
+/// internal failure) OSQP's C code also writes a diagnostic to standard
+/// output, which this module cannot suppress; a successful solve prints
+/// nothing.
 ///
 /// Source: B. Stellato, G. Banjac, P. Goulart, A. Bemporad, S. Boyd (2020),
 /// "OSQP: an operator splitting solver for quadratic programs", Mathematical

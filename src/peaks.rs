@@ -91,7 +91,11 @@ pub fn find_peaks(ln_tau: &[f64], gamma: &[f64], opts: &PeakOptions) -> Vec<Peak
             let badness = (g[i] / (opts.min_height_rel * highest))
                 .min(prominence / opts.min_prominence_rel)
                 .min(area / (opts.min_area_rel * total))
-                .min(if opts.min_r_ohm > 0.0 { area / opts.min_r_ohm } else { f64::INFINITY });
+                .min(if opts.min_r_ohm > 0.0 {
+                    area / opts.min_r_ohm
+                } else {
+                    f64::INFINITY
+                });
             if badness < 1.0 && worst.is_none_or(|(_, b)| badness < b) {
                 worst = Some((k, badness));
             }
@@ -117,9 +121,7 @@ fn separators(g: &[f64], maxima: &[usize]) -> Vec<usize> {
     b.push(0);
     for w in maxima.windows(2) {
         let (a, c) = (w[0], w[1]);
-        let m = (a..=c)
-            .min_by(|&x, &y| g[x].total_cmp(&g[y]))
-            .unwrap_or(a);
+        let m = (a..=c).min_by(|&x, &y| g[x].total_cmp(&g[y])).unwrap_or(a);
         b.push(m);
     }
     b.push(g.len() - 1);
@@ -127,14 +129,20 @@ fn separators(g: &[f64], maxima: &[usize]) -> Vec<usize> {
 }
 
 fn trapezoid(x: &[f64], y: &[f64], lo: usize, hi: usize) -> f64 {
-    (lo..hi).map(|i| 0.5 * (y[i] + y[i + 1]) * (x[i + 1] - x[i])).sum()
+    (lo..hi)
+        .map(|i| 0.5 * (y[i] + y[i + 1]) * (x[i + 1] - x[i]))
+        .sum()
 }
 
 fn make_peak(ln_tau: &[f64], g: &[f64], i: usize, lo: usize, hi: usize) -> Peak {
     // Parabola through the three samples around the maximum (uniform grid).
     let (a, b, c) = (g[i - 1], g[i], g[i + 1]);
     let denom = a - 2.0 * b + c;
-    let shift = if denom < 0.0 { (0.5 * (a - c) / denom).clamp(-0.5, 0.5) } else { 0.0 };
+    let shift = if denom < 0.0 {
+        (0.5 * (a - c) / denom).clamp(-0.5, 0.5)
+    } else {
+        0.0
+    };
     let h = ln_tau[i + 1] - ln_tau[i];
     let y = ln_tau[i] + shift * h;
     let peak_value = b - 0.25 * (a - c) * shift;
@@ -154,7 +162,9 @@ mod tests {
     use super::*;
 
     fn grid(n: usize, lo: f64, hi: f64) -> Vec<f64> {
-        (0..n).map(|i| lo + (hi - lo) * i as f64 / (n - 1) as f64).collect()
+        (0..n)
+            .map(|i| lo + (hi - lo) * i as f64 / (n - 1) as f64)
+            .collect()
     }
 
     fn gauss(y: f64, c: f64, s: f64, a: f64) -> f64 {
@@ -168,7 +178,10 @@ mod tests {
         let s = 0.5;
         let a1 = 5.0 / (s * (2.0 * std::f64::consts::PI).sqrt());
         let a2 = 2.0 / (s * (2.0 * std::f64::consts::PI).sqrt());
-        let g: Vec<f64> = y.iter().map(|&v| gauss(v, -3.0, s, a1) + gauss(v, 3.3, s, a2)).collect();
+        let g: Vec<f64> = y
+            .iter()
+            .map(|&v| gauss(v, -3.0, s, a1) + gauss(v, 3.3, s, a2))
+            .collect();
         let p = find_peaks(&y, &g, &PeakOptions::default());
         assert_eq!(p.len(), 2);
         assert!((p[0].tau_s.ln() + 3.0).abs() < 1e-3);
@@ -183,7 +196,9 @@ mod tests {
         let y = grid(401, -5.0, 5.0);
         let g: Vec<f64> = y
             .iter()
-            .map(|&v| gauss(v, 0.0, 1.0, 1.0) + 0.01 * (8.0 * v).sin().max(0.0) * (v > 1.0) as u8 as f64)
+            .map(|&v| {
+                gauss(v, 0.0, 1.0, 1.0) + 0.01 * (8.0 * v).sin().max(0.0) * (v > 1.0) as u8 as f64
+            })
             .collect();
         let p = find_peaks(&y, &g, &PeakOptions::default());
         assert_eq!(p.len(), 1, "{p:?}");

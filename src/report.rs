@@ -6,7 +6,7 @@
 //! - `lambda.csv`: one row per grid value of lambda, one column per computed rule
 //! - `summary.json`: see [`Summary`]
 
-use crate::invert::{InvertParams, Inversion, LambdaChoice};
+use crate::invert::{Inversion, InvertParams, LambdaChoice};
 use crate::io::Spectrum;
 use crate::lambda::LambdaRule;
 use crate::peaks::Peak;
@@ -15,7 +15,11 @@ use std::fmt::Write as _;
 
 /// Number format used in every CSV: 10 significant digits, exponent form.
 pub fn num(v: f64) -> String {
-    if v.is_finite() { format!("{v:.9e}") } else { String::new() }
+    if v.is_finite() {
+        format!("{v:.9e}")
+    } else {
+        String::new()
+    }
 }
 
 /// `drt.csv`.
@@ -225,7 +229,8 @@ impl Summary {
 
     /// Pretty JSON text with a final newline.
     pub fn to_json(&self) -> String {
-        let mut s = serde_json::to_string_pretty(self).unwrap_or_else(|e| format!("{{\"error\":\"{e}\"}}"));
+        let mut s =
+            serde_json::to_string_pretty(self).unwrap_or_else(|e| format!("{{\"error\":\"{e}\"}}"));
         s.push('\n');
         s
     }

@@ -118,7 +118,11 @@ impl Element {
     /// theta = atan(sin(pi alpha) / (x^alpha + cos(pi alpha))), taken in [0, pi].
     pub fn gamma_ohm(&self, tau_s: f64) -> Option<f64> {
         match *self {
-            Element::Zarc { r_ohm, tau_s: t0, phi } => {
+            Element::Zarc {
+                r_ohm,
+                tau_s: t0,
+                phi,
+            } => {
                 let a = (1.0 - phi) * PI;
                 Some(r_ohm / (2.0 * PI) * a.sin() / ((phi * (tau_s / t0).ln()).cosh() - a.cos()))
             }

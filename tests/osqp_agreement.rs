@@ -11,12 +11,32 @@ use taumap::synth::{Element, Series, add_noise, log_frequencies};
 fn cells() -> Vec<Series> {
     use Element::*;
     vec![
-        Series(vec![Resistor { r_ohm: 10.0 }, Voigt { r_ohm: 50.0, tau_s: 1e-3 }]),
-        Series(vec![Resistor { r_ohm: 10.0 }, Zarc { r_ohm: 50.0, tau_s: 1e-3, phi: 0.8 }]),
+        Series(vec![
+            Resistor { r_ohm: 10.0 },
+            Voigt {
+                r_ohm: 50.0,
+                tau_s: 1e-3,
+            },
+        ]),
+        Series(vec![
+            Resistor { r_ohm: 10.0 },
+            Zarc {
+                r_ohm: 50.0,
+                tau_s: 1e-3,
+                phi: 0.8,
+            },
+        ]),
         Series(vec![
             Resistor { r_ohm: 5.0 },
-            Zarc { r_ohm: 20.0, tau_s: 1e-4, phi: 0.9 },
-            Voigt { r_ohm: 30.0, tau_s: 1e-3 },
+            Zarc {
+                r_ohm: 20.0,
+                tau_s: 1e-4,
+                phi: 0.9,
+            },
+            Voigt {
+                r_ohm: 30.0,
+                tau_s: 1e-3,
+            },
             Inductor { l_h: 1e-6 },
         ]),
     ]
@@ -32,23 +52,53 @@ fn native_and_osqp_agree() {
         let t = problem(&s, &InvertParams::default()).unwrap();
         for lambda in [1e-4, 1e-2] {
             let native = t.solve(lambda, &[]);
-            // 1/2 x'Px + q'x with P = 2(A'A + lambda M), q = -2 A'b equals the
-            // Tikhonov objective minus the constant b'b.
+            // 1/2 x'Px + q'x with P = 2(A'A + lambda M + prior), q = -2 A'b
+            // equals the full objective minus the constant b'b.
             let a = t.design();
-            let p = (a.transpose() * a + t.penalty() * lambda) * 2.0;
+            let mut p = a.transpose() * a + t.penalty() * lambda;
+            if let Some(prior) = t.prior() {
+                p += prior;
+            }
+            let p = p * 2.0;
             let q: DVector<f64> = -(a.transpose() * t.rhs()) * 2.0;
             let n = p.nrows();
             let p_row: Vec<f64> = (0..n * n).map(|i| p[(i / n, i % n)]).collect();
             let o = solve_nonneg_qp(&p_row, q.as_slice(), &OsqpOptions::default()).unwrap();
-            let obj_native = native.residual_sq + lambda * native.penalty_sq;
-            let obj_osqp = o.objective + t.rhs().norm_squared();
+            let obj_native = t.objective(lambda, &native.x);
+            let obj_osqp = t.objective(lambda, &o.x);
+            assert!(
+                (o.objective + t.rhs().norm_squared() - obj_osqp).abs() < 1e-9 * obj_osqp,
+                "OSQP's own objective matches"
+            );
             let rel_obj = (obj_osqp - obj_native).abs() / obj_native;
-            assert!(rel_obj < 1e-6, "cell {k} lambda {lambda}: objective {obj_native} vs {obj_osqp}");
-            assert!(obj_native <= obj_osqp * (1.0 + 1e-9), "native is the better minimiser");
-            let xn = DVector::from_column_slice(&native.x);
-            let xo = DVector::from_column_slice(&o.x);
-            let rel_x = (&xn - &xo).norm() / xn.norm();
-            assert!(rel_x < 1e-4, "cell {k} lambda {lambda}: solution differs by {rel_x}");
+            assert!(
+                rel_obj < 1e-6,
+                "cell {k} lambda {lambda}: objective {obj_native} vs {obj_osqp}"
+            );
+            assert!(
+                obj_native <= obj_osqp * (1.0 + 1e-7),
+                "native {obj_native} vs OSQP {obj_osqp}"
+            );
+            // The coefficients themselves are determined only up to the flat
+            // directions of an ill-posed problem, where ADMM stops early; the
+            // fitted spectrum and the total resistance are well determined.
+            let fit_n = DVector::from_vec(t.predict(&native.x));
+            let fit_o = DVector::from_vec(t.predict(&o.x));
+            let rel_fit = (&fit_n - &fit_o).norm() / fit_n.norm();
+            assert!(
+                rel_fit < 1e-5,
+                "cell {k} lambda {lambda}: fit differs by {rel_fit}"
+            );
+            let sum = |x: &[f64]| x.iter().sum::<f64>();
+            let rel_sum = (sum(&native.x) - sum(&o.x)).abs() / sum(&native.x);
+            assert!(
+                rel_sum < 1e-4,
+                "cell {k} lambda {lambda}: total differs by {rel_sum}"
+            );
+            println!(
+                "cell {k} lambda {lambda:e}: objective {rel_obj:.1e}, fit {rel_fit:.1e}, total {rel_sum:.1e}, osqp {} in {} iterations",
+                o.status, o.iterations
+            );
         }
     }
 }

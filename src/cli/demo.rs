@@ -52,7 +52,9 @@ pub fn demo_spectrum() -> Result<Spectrum> {
 
 fn spectrum_csv(s: &Spectrum) -> String {
     let mut out = String::new();
-    out.push_str("# taumap demo: anode-supported solid-oxide button cell, 1 cm2, 700 C, open circuit\n");
+    out.push_str(
+        "# taumap demo: anode-supported solid-oxide button cell, 1 cm2, 700 C, open circuit\n",
+    );
     out.push_str("# synthetic: R 0.150 ohm + L 80 nH + ZARC(0.080 ohm, 20 us, 0.85)\n");
     out.push_str("#   + ZARC(0.120 ohm, 1 ms, 0.95) + finite Warburg(0.050 ohm, 0.5 s), 0.3 % noise, seed 2026\n");
     out.push_str("frequency_hz,z_re_ohm,z_im_ohm\n");

@@ -4,7 +4,7 @@ use super::args::{BasisArg, InductanceArg, InvertArgs, SolveArgs, WeightingArg};
 use anyhow::{Result, bail};
 use std::io::Write;
 use std::path::{Path, PathBuf};
-use taumap::invert::{InductanceMode, InvertParams, Inversion, LambdaChoice, Weighting, invert};
+use taumap::invert::{InductanceMode, Inversion, InvertParams, LambdaChoice, Weighting, invert};
 use taumap::io::Spectrum;
 use taumap::io::spectrum::read_spectrum_with_layout;
 use taumap::io::write::OutputSet;

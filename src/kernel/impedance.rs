@@ -62,7 +62,9 @@ mod tests {
     use crate::kernel::quadrature::gauss_legendre;
 
     fn omegas() -> Vec<f64> {
-        (0..25).map(|i| 2.0 * std::f64::consts::PI * 10f64.powf(-1.0 + 0.25 * i as f64)).collect()
+        (0..25)
+            .map(|i| 2.0 * std::f64::consts::PI * 10f64.powf(-1.0 + 0.25 * i as f64))
+            .collect()
     }
 
     /// Independent reference: composite 20-point Gauss-Legendre over 400 panels.
@@ -97,8 +99,14 @@ mod tests {
                 for (i, &wi) in w.iter().enumerate() {
                     let (r, s) = reference(&basis, j, wi);
                     let scale = basis.integral();
-                    assert!((k.re[(i, j)] - r).abs() < 1e-11 * scale, "{kind} re ({i},{j})");
-                    assert!((k.im[(i, j)] - s).abs() < 1e-11 * scale, "{kind} im ({i},{j})");
+                    assert!(
+                        (k.re[(i, j)] - r).abs() < 1e-11 * scale,
+                        "{kind} re ({i},{j})"
+                    );
+                    assert!(
+                        (k.im[(i, j)] - s).abs() < 1e-11 * scale,
+                        "{kind} im ({i},{j})"
+                    );
                 }
             }
         }
@@ -121,8 +129,14 @@ mod tests {
             let re = 1.0 / (1.0 + x * x);
             let im = -x / (1.0 + x * x);
             // Width 1.5 steps of 0.0115 ln units: second-moment error ~ 1e-4.
-            assert!((k.re[(i, j)] / basis.integral() - re).abs() < 2e-4, "re at {i}");
-            assert!((k.im[(i, j)] / basis.integral() - im).abs() < 2e-4, "im at {i}");
+            assert!(
+                (k.re[(i, j)] / basis.integral() - re).abs() < 2e-4,
+                "re at {i}"
+            );
+            assert!(
+                (k.im[(i, j)] / basis.integral() - im).abs() < 2e-4,
+                "im at {i}"
+            );
         }
     }
 
@@ -136,7 +150,11 @@ mod tests {
         let basis = Basis::new(BasisKind::Hat, &grid);
         let w = omegas();
         let k = ImpedanceKernel::new(&basis, &w);
-        let (y0, y1, h) = (basis.centers()[0], basis.centers()[basis.len() - 1], basis.step());
+        let (y0, y1, h) = (
+            basis.centers()[0],
+            basis.centers()[basis.len() - 1],
+            basis.step(),
+        );
         for (i, &wi) in w.iter().enumerate() {
             let prim_re = |y: f64| y - (1.0 + (wi * y.exp()).powi(2)).ln() / 2.0;
             let prim_im = |y: f64| (wi * y.exp()).atan();
@@ -156,10 +174,20 @@ mod tests {
             };
             let g_re = |y: f64| 1.0 / (1.0 + (wi * y.exp()).powi(2));
             let g_im = |y: f64| -(wi * y.exp()) / (1.0 + (wi * y.exp()).powi(2));
-            let want_re = prim_re(y1) - prim_re(y0) + taper(y0 - h, y0, true, &g_re) + taper(y1, y1 + h, false, &g_re);
-            let want_im = -(prim_im(y1) - prim_im(y0)) + taper(y0 - h, y0, true, &g_im) + taper(y1, y1 + h, false, &g_im);
-            assert!((sum_re - want_re).abs() < 1e-7, "re row {i}: {sum_re} vs {want_re}");
-            assert!((sum_im - want_im).abs() < 1e-7, "im row {i}: {sum_im} vs {want_im}");
+            let want_re = prim_re(y1) - prim_re(y0)
+                + taper(y0 - h, y0, true, &g_re)
+                + taper(y1, y1 + h, false, &g_re);
+            let want_im = -(prim_im(y1) - prim_im(y0))
+                + taper(y0 - h, y0, true, &g_im)
+                + taper(y1, y1 + h, false, &g_im);
+            assert!(
+                (sum_re - want_re).abs() < 1e-7,
+                "re row {i}: {sum_re} vs {want_re}"
+            );
+            assert!(
+                (sum_im - want_im).abs() < 1e-7,
+                "im row {i}: {sum_im} vs {want_im}"
+            );
         }
     }
 }

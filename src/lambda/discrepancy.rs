@@ -44,7 +44,11 @@ pub fn curve_with_variance(path: &LambdaPath, sigma2: f64) -> RuleCurve {
         if score[i] <= 1.0 {
             chosen = Some(if i + 1 < score.len() && score[i + 1] > 1.0 {
                 let (a, b) = (score[i].max(1e-300).ln(), score[i + 1].ln());
-                let t = if (b - a).abs() > 0.0 { (0.0 - a) / (b - a) } else { 0.0 };
+                let t = if (b - a).abs() > 0.0 {
+                    (0.0 - a) / (b - a)
+                } else {
+                    0.0
+                };
                 let (la, lb) = (lambdas[i].ln(), lambdas[i + 1].ln());
                 (la + t.clamp(0.0, 1.0) * (lb - la)).exp()
             } else {

@@ -31,8 +31,14 @@ pub fn curve(path: &LambdaPath) -> RuleCurve {
         .collect();
     let mut score = vec![f64::NAN; n];
     for i in 1..n.saturating_sub(1) {
-        let (r1, r2) = ((rho[i + 1] - rho[i - 1]) / 2.0, rho[i + 1] - 2.0 * rho[i] + rho[i - 1]);
-        let (e1, e2) = ((eta[i + 1] - eta[i - 1]) / 2.0, eta[i + 1] - 2.0 * eta[i] + eta[i - 1]);
+        let (r1, r2) = (
+            (rho[i + 1] - rho[i - 1]) / 2.0,
+            rho[i + 1] - 2.0 * rho[i] + rho[i - 1],
+        );
+        let (e1, e2) = (
+            (eta[i + 1] - eta[i - 1]) / 2.0,
+            eta[i + 1] - 2.0 * eta[i] + eta[i - 1],
+        );
         let speed = (r1 * r1 + e1 * e1).powf(1.5);
         if speed > 1e-300 {
             score[i] = (r1 * e2 - r2 * e1) / speed;

@@ -41,7 +41,12 @@ pub fn curve(problem: &Tikhonov, rows_a: &[usize], rows_b: &[usize], lambdas: &[
 
 /// Fits on `fit_rows`, returns the squared prediction error on `test_rows` for
 /// every `lambda` (path warm-started from the largest value down).
-fn one_way(problem: &Tikhonov, fit_rows: &[usize], test_rows: &[usize], lambdas: &[f64]) -> Vec<f64> {
+fn one_way(
+    problem: &Tikhonov,
+    fit_rows: &[usize],
+    test_rows: &[usize],
+    lambdas: &[f64],
+) -> Vec<f64> {
     let fit = problem.rows(fit_rows);
     let test = problem.rows(test_rows);
     let n = problem.ncols();
@@ -68,4 +73,3 @@ fn one_way(problem: &Tikhonov, fit_rows: &[usize], test_rows: &[usize], lambdas:
     }
     out
 }
-

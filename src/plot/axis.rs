@@ -217,7 +217,8 @@ fn log_ticks(lo: f64, hi: f64, max_ticks: usize) -> Ticks {
 }
 
 /// Ticks at powers of ten (every `stride`-th when there are many), minor
-/// lines at the other integer mantissas.
+/// lines at the other integer mantissas (up to six decades) or at the
+/// unlabelled decades.
 fn decade_ticks(lo: f64, hi: f64, max_ticks: usize) -> Ticks {
     let (first, last) = (lo.ceil() as i64, hi.floor() as i64);
     let n = (last - first + 1).max(1) as usize;
@@ -226,7 +227,8 @@ fn decade_ticks(lo: f64, hi: f64, max_ticks: usize) -> Ticks {
         .filter(|k| k.rem_euclid(stride) == 0)
         .map(|k| k as f64)
         .collect();
-    let light: Vec<f64> = if stride == 1 {
+    // Minor lines at 2..9 only while they stay sparse enough to read.
+    let light: Vec<f64> = if stride == 1 && n <= 6 {
         (first - 1..=last)
             .flat_map(|k| (2..=9).map(move |m| k as f64 + f64::from(m).log10()))
             .filter(|p| lo <= *p && *p <= hi)
@@ -247,7 +249,9 @@ fn decade_ticks(lo: f64, hi: f64, max_ticks: usize) -> Ticks {
 /// Ticks at `m × 10^k`, labelled as plain numbers when every tick lies
 /// between 0.01 and 9999.
 fn mantissa_ticks(bold: Vec<f64>, light: Vec<f64>) -> Ticks {
-    let plain = bold.iter().all(|p| (-2.0..4.0).contains(&(p + 1e-9).floor()));
+    let plain = bold
+        .iter()
+        .all(|p| (-2.0..4.0).contains(&(p + 1e-9).floor()));
     Ticks {
         bold,
         light,
@@ -370,6 +374,7 @@ mod tests {
             lo: -3.2,
             hi: 1.1,
         };
+        // (five decades: minor lines at 2..9 are kept)
         let t = axis.ticks(8);
         let labels: Vec<String> = t.bold.iter().map(|&p| t.label(p)).collect();
         assert_eq!(labels, ["10⁻³", "10⁻²", "10⁻¹", "10⁰", "10¹"]);
@@ -418,7 +423,8 @@ mod tests {
             labels,
             ["0", "0.05", "0.10", "0.15", "0.20", "0.25", "0.30"]
         );
-        assert_eq!(fmt_step(2.5e-6, 1e-6), "2.5×10⁻⁶");
+        assert_eq!(fmt_step(2.5e-6, 5e-7), "2.5×10⁻⁶");
+        assert_eq!(fmt_step(-3e5, 1e5), "-3×10⁵");
         assert_eq!(fmt_sci(9.9996e-4, 2), "1.00×10⁻³");
     }
 

@@ -7,6 +7,7 @@ use super::BodeFigure;
 use super::ImageFormat;
 use super::axis::{Axis, Extent, Scale};
 use super::common::{self, Chart, DrawResult, Paint, Panel};
+use super::draw::{self, Mark};
 use crate::Result;
 
 /// Three panels need more height than a single-panel figure.
@@ -98,7 +99,7 @@ impl<'a> BodePlot<'a> {
         })
     }
 
-    fn panel<'s>(&self, y: Axis, y_desc: &'s str, bottom: bool) -> Panel<'s> {
+    fn panel<'s>(&self, y: Axis, y_desc: &'s str, bottom: bool, key_room: bool) -> Panel<'s> {
         Panel {
             x: self.x,
             y,
@@ -108,10 +109,11 @@ impl<'a> BodePlot<'a> {
             x_ticks: 10,
             y_ticks: 5,
             common_step: None,
+            key_room,
         }
     }
 
-    /// Measured values as circles and the fit as a line.
+    /// Measured values as circles over the fit as a line.
     fn data_and_fit<'c, DB: DrawingBackend + 'c>(
         &self,
         chart: &mut Chart<'c, DB>,
@@ -120,60 +122,71 @@ impl<'a> BodePlot<'a> {
         fit: &[f64],
     ) -> DrawResult<()> {
         let f = self.fig.frequency_hz;
-        let pts = common::points(f, data, &self.x, y);
-        common::draw_markers(chart, &pts, common::DATA, Some("measured"))?;
         if !fit.is_empty() {
-            let runs = common::segments(f, fit, &self.x, y);
-            common::draw_line(chart, &runs, common::FIT, Some("fit"))?;
+            draw::draw_series(chart, f, fit, &self.x, y, FIT_MARK)?;
         }
-        Ok(())
+        draw::draw_series(chart, f, data, &self.x, y, DATA_MARK)
     }
 }
+
+const DATA_MARK: Mark = Mark::Marker(common::DATA);
+const FIT_MARK: Mark = Mark::Line(common::FIT);
 
 impl Paint for BodePlot<'_> {
     fn paint<DB: DrawingBackend>(&self, root: &DrawingArea<DB, Shift>) -> DrawResult<()> {
         let area = common::titled(root, self.fig.title)?;
-        // The bottom panel also holds the shared axis labels (48 px more);
-        // sizing it that much taller gives three plot areas of equal height.
+        // Heights chosen so that the three plotting areas come out equal:
+        // the top and bottom panels carry a 20 px key strip, and the bottom
+        // one the shared axis labels (48 px more than the others).
         let h = area.dim_in_pixel().1 as i32;
-        let top = (h - 48) / 3;
-        let parts = area.split_by_breakpoints([] as [i32; 0], [top, 2 * top]);
+        let unit = (h - 20 - 68) / 3;
+        let parts = area.split_by_breakpoints([] as [i32; 0], [unit + 20, 2 * unit + 20]);
         let [a_mag, a_phase, a_res] = parts.as_slice() else {
             return Err(format!("expected 3 panel areas, got {}", parts.len()));
         };
 
-        let mut chart = common::build_panel(a_mag, &self.panel(self.y_mag, "|Z| (ohm)", false))?;
+        let mut chart =
+            common::build_panel(a_mag, &self.panel(self.y_mag, "|Z| (ohm)", false, true))?;
         self.data_and_fit(&mut chart, &self.y_mag, &self.mag, &self.fit_mag)?;
-        common::draw_legend(&mut chart, SeriesLabelPosition::UpperRight)?;
+        let mut keys = vec![(DATA_MARK, "measured")];
+        if !self.fit_mag.is_empty() {
+            keys.push((FIT_MARK, "fit"));
+        }
+        draw::draw_keys_above(a_mag, &chart, &keys)?;
 
-        let panel = self.panel(self.y_phase, "phase (deg)", false);
+        let panel = self.panel(self.y_phase, "phase (deg)", false, false);
         let mut chart = common::build_panel(a_phase, &panel)?;
-        common::draw_zero_line(&mut chart, &self.x, &self.y_phase)?;
+        draw::draw_zero_line(&mut chart, &self.x, &self.y_phase)?;
         self.data_and_fit(&mut chart, &self.y_phase, &self.phase, &self.fit_phase)?;
 
-        let panel = self.panel(self.y_res, "residual (%)", true);
+        let panel = self.panel(self.y_res, "residual (%)", true, true);
         let mut chart = common::build_panel(a_res, &panel)?;
-        common::draw_zero_line(&mut chart, &self.x, &self.y_res)?;
+        draw::draw_zero_line(&mut chart, &self.x, &self.y_res)?;
         let f = self.fig.frequency_hz;
         let series = [
-            (&self.res_re_pct, common::DATA, "real part"),
-            (&self.res_im_pct, common::ACCENT, "imaginary part"),
+            (
+                &self.res_re_pct,
+                Mark::LineMarker(common::DATA),
+                "real part",
+            ),
+            (
+                &self.res_im_pct,
+                Mark::LineMarker(common::ACCENT),
+                "imaginary part",
+            ),
         ];
-        let mut any = false;
-        for (values, color, label) in series {
-            if values.is_empty() {
-                continue;
+        let mut keys = Vec::new();
+        for (values, mark, label) in series {
+            if !values.is_empty() {
+                draw::draw_series(&mut chart, f, values, &self.x, &self.y_res, mark)?;
+                keys.push((mark, label));
             }
-            any = true;
-            let runs = common::segments(f, values, &self.x, &self.y_res);
-            common::draw_line(&mut chart, &runs, color, Some(label))?;
-            let pts = common::points(f, values, &self.x, &self.y_res);
-            common::draw_markers(&mut chart, &pts, color, None)?;
         }
-        if any {
-            common::draw_legend(&mut chart, SeriesLabelPosition::UpperRight)
+        if keys.is_empty() {
+            let plot = chart.plotting_area().strip_coord_spec();
+            draw::draw_note(&plot, "no residuals given", None, 15.0)
         } else {
-            common::draw_note(a_res, "no residuals given", None, 15.0)
+            draw::draw_keys_above(a_res, &chart, &keys)
         }
     }
 }
@@ -203,8 +216,9 @@ mod tests {
         };
         let png = render_bode(&fig, ImageFormat::Png).unwrap();
         check_png(&png, SIZE);
-        save("bode", &png);
+        save("bode.png", &png);
         let svg = render_bode(&fig, ImageFormat::Svg).unwrap();
+        save("bode.svg", &svg);
         check_svg(
             &svg,
             &[
@@ -272,7 +286,7 @@ mod tests {
             render_bode(&fig, ImageFormat::Svg).unwrap();
         }
         save(
-            "bode_degenerate",
+            "bode_degenerate.png",
             &render_bode(&flat, ImageFormat::Png).unwrap(),
         );
     }

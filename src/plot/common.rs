@@ -1,8 +1,8 @@
 //! Drawing machinery shared by every figure: the embedded font, the SVG and
-//! PNG canvases, panel construction and the small drawing primitives.
+//! PNG canvases, panel construction and input checks.
 //!
-//! Axis ranges and tick marks live in [`super::axis`]; this file only knows
-//! how to put them on a canvas.
+//! Axis ranges and tick marks live in [`super::axis`], series and legends
+//! in [`super::draw`]; this file sets up the canvas and the panels.
 
 use std::path::PathBuf;
 use std::sync::OnceLock;
@@ -257,6 +257,27 @@ pub(crate) fn plot_size<DB: DrawingBackend>(
     Ok(chart.plotting_area().dim_in_pixel())
 }
 
+/// Tick labels' font size in pixels.
+const TICK_FONT: f64 = 16.0;
+
+/// Ticks for `axis` with the largest count up to `max_ticks` whose labels
+/// need at most `room_px` pixels according to `need`.
+fn fitted_ticks(
+    axis: &Axis,
+    max_ticks: usize,
+    room_px: u32,
+    need: impl Fn(&Ticks) -> DrawResult<u32>,
+) -> DrawResult<Ticks> {
+    let mut n = max_ticks.max(2);
+    loop {
+        let ticks = axis.ticks(n);
+        if n <= 2 || need(&ticks)? <= room_px {
+            return Ok(ticks);
+        }
+        n -= 1;
+    }
+}
+
 /// Builds a panel and draws its grid, ticks, axis labels and frame.
 pub(crate) fn build_panel<'c, DB: DrawingBackend>(
     area: &DrawingArea<DB, Shift>,
@@ -264,7 +285,24 @@ pub(crate) fn build_panel<'c, DB: DrawingBackend>(
 ) -> DrawResult<Chart<'c, DB>> {
     let (xt, yt) = match panel.common_step {
         Some(step) => (panel.x.linear_ticks(step), panel.y.linear_ticks(step)),
-        None => (panel.x.ticks(panel.x_ticks), panel.y.ticks(panel.y_ticks)),
+        None => {
+            let (w, h) = plot_size(area, panel)?;
+            let x_need = |t: &Ticks| -> DrawResult<u32> {
+                let mut total = 0;
+                for &p in &t.bold {
+                    let (tw, _) = area
+                        .estimate_text_size(&t.label(p), &font(TICK_FONT))
+                        .map_err(de)?;
+                    total += tw + 14;
+                }
+                Ok(total)
+            };
+            let y_need = |t: &Ticks| Ok(t.bold.len() as u32 * 26);
+            (
+                fitted_ticks(&panel.x, panel.x_ticks, w, x_need)?,
+                fitted_ticks(&panel.y, panel.y_ticks, h, y_need)?,
+            )
+        }
     };
     let mut chart = builder(area, panel)
         .build_cartesian_2d(PlotRange::new(&panel.x, &xt), PlotRange::new(&panel.y, &yt))
@@ -278,7 +316,7 @@ pub(crate) fn build_panel<'c, DB: DrawingBackend>(
         .y_label_formatter(&y_fmt)
         .x_desc(panel.x_desc.unwrap_or(""))
         .y_desc(panel.y_desc)
-        .label_style(font(16.0))
+        .label_style(font(TICK_FONT))
         .axis_desc_style(font(17.0))
         .bold_line_style(GRID)
         .light_line_style(GRID_LIGHT)

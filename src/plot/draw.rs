@@ -75,9 +75,12 @@ pub(crate) fn draw_series<'a, DB: DrawingBackend + 'a>(
     };
     let style = color.stroke_width(width);
     for run in segments(xs, ys, x, y) {
-        if run.len() == 1 {
+        // A run whose points all coincide would be an invisible line.
+        let same =
+            |p: &(f64, f64)| p.0.total_cmp(&run[0].0).is_eq() && p.1.total_cmp(&run[0].1).is_eq();
+        if run.iter().all(same) {
             chart
-                .draw_series(run.iter().map(|&p| Circle::new(p, 3, color.filled())))
+                .draw_series(std::iter::once(Circle::new(run[0], 3, color.filled())))
                 .map_err(de)?;
         } else if matches!(mark, Mark::Dashed(_)) {
             chart
@@ -123,7 +126,9 @@ pub(crate) fn draw_vline<'a, DB: DrawingBackend + 'a>(
             .draw_series(DashedLineSeries::new(ends, DASH.0, DASH.1, style))
             .map_err(de)?;
     } else {
-        chart.draw_series(LineSeries::new(ends, style)).map_err(de)?;
+        chart
+            .draw_series(LineSeries::new(ends, style))
+            .map_err(de)?;
     }
     Ok(())
 }

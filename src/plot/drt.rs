@@ -92,7 +92,11 @@ impl Paint for DrtPlot<'_> {
         sorted.sort_by(|a, b| a.0.total_cmp(&b.0));
         let peak = Mark::Dashed(common::ACCENT);
         let mut keys = vec![(curve, "distribution")];
-        for p in fig.peaks_tau_s.iter().filter_map(|&t| Scale::Log.to_plot(t)) {
+        for p in fig
+            .peaks_tau_s
+            .iter()
+            .filter_map(|&t| Scale::Log.to_plot(t))
+        {
             if keys.len() == 1 {
                 keys.push((peak, "peak"));
             }
@@ -138,8 +142,9 @@ mod tests {
         };
         let png = render_drt(&fig, ImageFormat::Png).unwrap();
         check_png(&png, SIZE);
-        save("drt", &png);
+        save("drt.png", &png);
         let svg = render_drt(&fig, ImageFormat::Svg).unwrap();
+        save("drt.svg", &svg);
         check_svg(&svg, &["tau (s)", "gamma (ohm)", "10⁻³"]);
     }
 
@@ -191,6 +196,6 @@ mod tests {
         };
         let png = render_drt(&flat, ImageFormat::Png).unwrap();
         check_png(&png, SIZE);
-        save("drt_degenerate", &png);
+        save("drt_degenerate.png", &png);
     }
 }

@@ -6,6 +6,7 @@ use plotters::prelude::*;
 use super::ImageFormat;
 use super::axis::{Extent, Scale, fmt_sci};
 use super::common::{self, DrawResult, Paint, Panel};
+use super::draw::{self, Mark};
 use super::{LambdaCurve, LambdaFigure};
 use crate::Result;
 
@@ -95,60 +96,78 @@ impl<'a> LambdaPlot<'a> {
                 ye.add(s);
             }
         }
+        let chosen = curve
+            .chosen_lambda
+            .filter(|l| Scale::Log.to_plot(*l).is_some());
+        let caption = match chosen {
+            Some(l) => format!("{} ({})", curve.name, fmt_sci(l, 2)),
+            None => curve.name.to_string(),
+        };
         if xe.raw().is_none() {
-            common::draw_note(area, curve.name, Some(12), 17.0)?;
+            draw::draw_note(area, &caption, Some(12), 17.0)?;
             let what = if curve.log_y {
                 "positive finite"
             } else {
                 "finite"
             };
             let note = format!("no point with positive lambda and {what} score");
-            return common::draw_note(area, &note, None, 15.0);
+            return draw::draw_note(area, &note, None, 15.0);
         }
-        let chosen = curve.chosen_lambda.and_then(|l| Scale::Log.to_plot(l));
-        let selected = Scale::Log.to_plot(self.fig.selected_lambda);
-        xe.add_all(curve.chosen_lambda);
+        xe.add_all(chosen);
         xe.add(self.fig.selected_lambda);
         let panel = Panel {
             x: xe.finish("lambda")?,
             y: ye.finish("score")?,
             x_desc: Some("lambda (dimensionless)"),
             y_desc: curve.y_label,
-            caption: Some(curve.name),
+            caption: Some(&caption),
             x_ticks: 6,
             y_ticks: 5,
             common_step: None,
+            key_room: false,
         };
-        let (x, y) = (panel.x, panel.y);
+        let (x, y) = (&panel.x, &panel.y);
         let mut chart = common::build_panel(area, &panel)?;
-        let runs = common::segments(curve.lambda, curve.score, &x, &y);
-        common::draw_line(&mut chart, &runs, common::DATA, None)?;
-        let pts = common::points(curve.lambda, curve.score, &x, &y);
+        let mark = Mark::Line(common::DATA);
+        draw::draw_series(&mut chart, curve.lambda, curve.score, x, y, mark)?;
+        let pts = draw::points(curve.lambda, curve.score, x, y);
         chart
             .draw_series(
                 pts.iter()
                     .map(|&p| Circle::new(p, 2, common::DATA.filled())),
             )
             .map_err(common::de)?;
-        if let Some(p) = selected {
-            let label = format!("selected {}", fmt_sci(self.fig.selected_lambda, 2));
-            common::draw_vline(&mut chart, p, &y, common::FIT, false, Some(&label))?;
+        if let Some(p) = Scale::Log.to_plot(self.fig.selected_lambda) {
+            draw::draw_vline(&mut chart, p, y, SELECTED)?;
         }
-        if let (Some(p), Some(l)) = (chosen, curve.chosen_lambda) {
-            let label = format!("this rule {}", fmt_sci(l, 2));
-            common::draw_vline(&mut chart, p, &y, common::ACCENT, true, Some(&label))?;
-        }
-        if chosen.is_some() || selected.is_some() {
-            let corner = common::quiet_corner(&pts, &x, &y);
-            common::draw_legend(&mut chart, corner)?;
+        if let Some(p) = chosen.and_then(|l| Scale::Log.to_plot(l)) {
+            draw::draw_vline(&mut chart, p, y, CHOSEN)?;
         }
         Ok(())
     }
 }
 
+/// Marks for the λ picked by a panel's own rule and for the one finally used.
+const CHOSEN: Mark = Mark::Dashed(common::ACCENT);
+const SELECTED: Mark = Mark::Line(common::FIT);
+
 impl Paint for LambdaPlot<'_> {
     fn paint<DB: DrawingBackend>(&self, root: &DrawingArea<DB, Shift>) -> DrawResult<()> {
         let area = common::titled(root, self.fig.title)?;
+        // One key for all panels, in a strip below the title.
+        let (strip, area) = area.split_vertically(30);
+        let selected = format!("selected: {}", fmt_sci(self.fig.selected_lambda, 2));
+        let mut keys = Vec::new();
+        if self.fig.curves.iter().any(|c| c.chosen_lambda.is_some()) {
+            keys.push((CHOSEN, "choice of the panel's rule"));
+        }
+        if Scale::Log.to_plot(self.fig.selected_lambda).is_some() {
+            keys.push((SELECTED, selected.as_str()));
+        }
+        let width = draw::row_width(&strip, &keys)?;
+        let (w, _) = strip.dim_in_pixel();
+        draw::draw_key_row(&strip, &keys, ((w as i32 - width) / 2, 12))?;
+
         let cells = area.split_evenly(grid(self.fig.curves.len()));
         for (cell, curve) in cells.iter().zip(self.fig.curves) {
             self.curve_panel(cell, curve)?;
@@ -215,8 +234,9 @@ mod tests {
         };
         let png = render_lambda(&fig, ImageFormat::Png).unwrap();
         check_png(&png, size(3));
-        save("lambda", &png);
+        save("lambda.png", &png);
         let svg = render_lambda(&fig, ImageFormat::Svg).unwrap();
+        save("lambda.svg", &svg);
         check_svg(
             &svg,
             &[
@@ -234,7 +254,7 @@ mod tests {
         };
         let png = render_lambda(&fig, ImageFormat::Png).unwrap();
         check_png(&png, size(5));
-        save("lambda_five", &png);
+        save("lambda_five.png", &png);
     }
 
     #[test]
@@ -301,7 +321,7 @@ mod tests {
         };
         let png = render_lambda(&fig, ImageFormat::Png).unwrap();
         check_png(&png, size(3));
-        save("lambda_degenerate", &png);
+        save("lambda_degenerate.png", &png);
         render_lambda(&fig, ImageFormat::Svg).unwrap();
     }
 }

@@ -107,14 +107,14 @@ impl<'a> NyquistPlot<'a> {
 impl Paint for NyquistPlot<'_> {
     fn paint<DB: DrawingBackend>(&self, root: &DrawingArea<DB, Shift>) -> DrawResult<()> {
         let area = common::titled(root, self.fig.title)?;
-        let axis = |(lo, hi): (f64, f64)| Axis {
+        let linear = |(lo, hi): (f64, f64)| Axis {
             scale: Scale::Linear,
             lo,
             hi,
         };
         let mut panel = Panel {
-            x: axis(self.x),
-            y: axis(self.y),
+            x: linear(self.x),
+            y: linear(self.y),
             x_desc: Some("Z' (ohm)"),
             y_desc: "-Z'' (ohm)",
             caption: None,
@@ -126,8 +126,8 @@ impl Paint for NyquistPlot<'_> {
         let (w, h) = common::plot_size(&area, &panel)?;
         let (x, y) = equal_scale_ranges(self.x, self.y, w, h);
         let step = axis::nice_step(x.1 - x.0, 10).max(axis::nice_step(y.1 - y.0, 7));
-        panel.x = axis(x);
-        panel.y = axis(y);
+        panel.x = linear(x);
+        panel.y = linear(y);
         panel.common_step = Some(step);
         let mut chart = common::build_panel(&area, &panel)?;
         let (x, y) = (&panel.x, &panel.y);
@@ -198,8 +198,9 @@ mod tests {
         };
         let png = render_nyquist(&fig, ImageFormat::Png).unwrap();
         check_png(&png, SIZE);
-        save("nyquist", &png);
+        save("nyquist.png", &png);
         let svg = render_nyquist(&fig, ImageFormat::Svg).unwrap();
+        save("nyquist.svg", &svg);
         // The SVG backend escapes apostrophes.
         check_svg(
             &svg,
@@ -254,7 +255,7 @@ mod tests {
             render_nyquist(&fig, ImageFormat::Svg).unwrap();
         }
         save(
-            "nyquist_degenerate",
+            "nyquist_degenerate.png",
             &render_nyquist(&flat, ImageFormat::Png).unwrap(),
         );
     }

@@ -40,13 +40,13 @@ pub(crate) fn check_svg(bytes: &[u8], needles: &[&str]) {
     }
 }
 
-/// Writes `bytes` to `$TAUMAP_PLOT_PREVIEW_DIR/{name}.png` when that variable
+/// Writes `bytes` to `$TAUMAP_PLOT_PREVIEW_DIR/{file}` when that variable
 /// is set, so the rendered figures can be inspected by eye.
-pub(crate) fn save(name: &str, bytes: &[u8]) {
+pub(crate) fn save(file: &str, bytes: &[u8]) {
     if let Some(dir) = std::env::var_os("TAUMAP_PLOT_PREVIEW_DIR") {
         let dir = std::path::PathBuf::from(dir);
         std::fs::create_dir_all(&dir).expect("preview directory can be created");
-        std::fs::write(dir.join(format!("{name}.png")), bytes).expect("preview can be written");
+        std::fs::write(dir.join(file), bytes).expect("preview can be written");
     }
 }
 

@@ -7,6 +7,7 @@ use super::ImageFormat;
 use super::TransientFigure;
 use super::axis::{Axis, Extent, Scale};
 use super::common::{self, DrawResult, Paint, Panel};
+use super::draw::{self, Mark};
 use crate::Result;
 
 const SIZE: (u32, u32) = (900, 650);
@@ -101,6 +102,7 @@ impl<'a> TransientPlot<'a> {
             x_ticks: 10,
             y_ticks: if bottom { 4 } else { 7 },
             common_step: None,
+            key_room: false,
         }
     }
 }
@@ -110,28 +112,29 @@ impl Paint for TransientPlot<'_> {
         let area = common::titled(root, self.fig.title)?;
         let h = area.dim_in_pixel().1 as i32;
         let (top, bottom) = area.split_vertically((h * 64) / 100);
-        let t = self.fig.time_s;
+        let (t, x) = (self.fig.time_s, &self.x);
 
         let mut chart = common::build_panel(&top, &self.panel(self.y, self.fig.y_label, false))?;
-        let pts = common::points(t, self.fig.measured, &self.x, &self.y);
-        common::draw_markers(&mut chart, &pts, common::DATA, Some("measured"))?;
+        let (data, fit) = (Mark::Marker(common::DATA), Mark::Line(common::FIT));
+        let mut keys = vec![(data, "measured")];
         if !self.fig.fitted.is_empty() {
-            let runs = common::segments(t, self.fig.fitted, &self.x, &self.y);
-            common::draw_line(&mut chart, &runs, common::FIT, Some("fit"))?;
+            draw::draw_series(&mut chart, t, self.fig.fitted, x, &self.y, fit)?;
+            keys.push((fit, "fit"));
         }
-        let corner = common::quiet_corner(&pts, &self.x, &self.y);
-        common::draw_legend(&mut chart, corner)?;
+        draw::draw_series(&mut chart, t, self.fig.measured, x, &self.y, data)?;
+        let data_pts = draw::points(t, self.fig.measured, x, &self.y);
+        let fit_pts = draw::points(t, self.fig.fitted, x, &self.y);
+        draw::draw_legend(&chart, &keys, &[&data_pts, &fit_pts])?;
 
         let panel = self.panel(self.y_res, "residual (% of max)", true);
         let mut chart = common::build_panel(&bottom, &panel)?;
-        common::draw_zero_line(&mut chart, &self.x, &self.y_res)?;
+        draw::draw_zero_line(&mut chart, x, &self.y_res)?;
         if self.residual_pct.is_empty() {
-            return common::draw_note(&bottom, "no fit given", None, 15.0);
+            let plot = chart.plotting_area().strip_coord_spec();
+            return draw::draw_note(&plot, "no fit given", None, 15.0);
         }
-        let runs = common::segments(t, &self.residual_pct, &self.x, &self.y_res);
-        common::draw_line(&mut chart, &runs, common::DATA, None)?;
-        let pts = common::points(t, &self.residual_pct, &self.x, &self.y_res);
-        common::draw_markers(&mut chart, &pts, common::DATA, None)
+        let mark = Mark::LineMarker(common::DATA);
+        draw::draw_series(&mut chart, t, &self.residual_pct, x, &self.y_res, mark)
     }
 }
 
@@ -162,8 +165,9 @@ mod tests {
         };
         let png = render_transient(&fig, ImageFormat::Png).unwrap();
         check_png(&png, SIZE);
-        save("transient", &png);
+        save("transient.png", &png);
         let svg = render_transient(&fig, ImageFormat::Svg).unwrap();
+        save("transient.svg", &svg);
         check_svg(&svg, &["time (s)", "voltage (V)", "residual (% of max)"]);
     }
 
@@ -203,7 +207,7 @@ mod tests {
             render_transient(&fig, ImageFormat::Svg).unwrap();
         }
         save(
-            "transient_single",
+            "transient_single.png",
             &render_transient(&single, ImageFormat::Png).unwrap(),
         );
     }

@@ -23,6 +23,7 @@ pub struct Tikhonov {
     ata: DMatrix<f64>,
     atb: DVector<f64>,
     penalty: DMatrix<f64>,
+    prior: Option<DMatrix<f64>>,
 }
 
 /// One solve at a fixed `lambda`.
@@ -57,14 +58,35 @@ impl Tikhonov {
             ata,
             atb,
             penalty,
+            prior: None,
         }
+    }
+
+    /// Adds a fixed quadratic term `x' P x` (not scaled by `lambda`) to the
+    /// objective: a prior that holds independently of the regularisation
+    /// strength. It is not counted in `penalty_sq` nor in the data fit.
+    #[must_use]
+    pub fn with_prior(mut self, prior: DMatrix<f64>) -> Self {
+        debug_assert_eq!(prior.nrows(), self.ncols());
+        self.prior = Some(prior);
+        self
+    }
+
+    fn normal_matrix(&self, lambda: f64) -> DMatrix<f64> {
+        let mut q = &self.ata + &self.penalty * lambda;
+        if let Some(p) = &self.prior {
+            q += p;
+        }
+        q
     }
 
     /// The same problem restricted to a subset of rows (used by cross-validation).
     pub fn rows(&self, rows: &[usize]) -> Self {
         let a = self.a.select_rows(rows);
         let b = DVector::from_fn(rows.len(), |i, _| self.b[rows[i]]);
-        Self::new(a, b, self.penalty.clone())
+        let mut t = Self::new(a, b, self.penalty.clone());
+        t.prior.clone_from(&self.prior);
+        t
     }
 
     /// Number of equations.
@@ -92,6 +114,22 @@ impl Tikhonov {
         &self.penalty
     }
 
+    /// The fixed prior term, if any (see [`Tikhonov::with_prior`]).
+    pub fn prior(&self) -> Option<&DMatrix<f64>> {
+        self.prior.as_ref()
+    }
+
+    /// The full objective `||Ax - b||^2 + lambda x'Mx + x'Px` at `x`.
+    pub fn objective(&self, lambda: f64, x: &[f64]) -> f64 {
+        let xv = DVector::from_column_slice(x);
+        let r = &self.a * &xv - &self.b;
+        let mut v = r.norm_squared() + lambda * xv.dot(&(&self.penalty * &xv));
+        if let Some(p) = &self.prior {
+            v += xv.dot(&(p * &xv));
+        }
+        v
+    }
+
     /// `tr(A'A) / tr(M)` restricted to the penalised unknowns: the natural
     /// scale of `lambda` for this problem.
     pub fn lambda_scale(&self) -> f64 {
@@ -107,7 +145,7 @@ impl Tikhonov {
 
     /// Solves at `lambda >= 0`, warm-started from the free set `warm`.
     pub fn solve(&self, lambda: f64, warm: &[usize]) -> TikhonovSolution {
-        let q = &self.ata + &self.penalty * lambda;
+        let q = self.normal_matrix(lambda);
         let sol = nnls_normal(&q, &self.atb, warm);
         self.finish(lambda, sol.x, sol.passive, sol.iterations, sol.status)
     }
@@ -137,11 +175,14 @@ impl Tikhonov {
 
     /// Predicted right-hand side `A x`.
     pub fn predict(&self, x: &[f64]) -> Vec<f64> {
-        (&self.a * DVector::from_column_slice(x)).iter().copied().collect()
+        (&self.a * DVector::from_column_slice(x))
+            .iter()
+            .copied()
+            .collect()
     }
 
     /// Trace of the influence matrix on the free set,
-    /// `tr H = tr( A_F (A_F' A_F + lambda M_FF)^{-1} A_F' )`, the effective number
+    /// `tr H = tr( A_F (A_F' A_F + lambda M_FF + P_FF)^{-1} A_F' )`, the effective number
     /// of fitted parameters at a constrained solution: bound variables are held
     /// at zero and do not respond to the data.
     pub fn influence_trace(&self, lambda: f64, free: &[usize]) -> f64 {
@@ -150,7 +191,10 @@ impl Tikhonov {
             return 0.0;
         }
         let q = DMatrix::from_fn(p, p, |i, j| {
-            self.ata[(free[i], free[j])] + lambda * self.penalty[(free[i], free[j])]
+            let (a, b) = (free[i], free[j]);
+            self.ata[(a, b)]
+                + lambda * self.penalty[(a, b)]
+                + self.prior.as_ref().map_or(0.0, |m| m[(a, b)])
         });
         let g = DMatrix::from_fn(p, p, |i, j| self.ata[(free[i], free[j])]);
         match q.clone().cholesky() {
@@ -179,7 +223,9 @@ mod tests {
     /// over the singular values s_i of A (Hansen 1998, section 5.1).
     #[test]
     fn unconstrained_ridge_matches_svd_formulas() {
-        let a = DMatrix::from_fn(20, 4, |i, j| 1.0 / (1.0 + i as f64 + j as f64) + if i == j { 1.0 } else { 0.0 });
+        let a = DMatrix::from_fn(20, 4, |i, j| {
+            1.0 / (1.0 + i as f64 + j as f64) + if i == j { 1.0 } else { 0.0 }
+        });
         let x_true = DVector::from_column_slice(&[1.0, 2.0, 0.5, 1.5]);
         let b = &a * &x_true;
         let t = Tikhonov::new(a.clone(), b.clone(), DMatrix::identity(4, 4));

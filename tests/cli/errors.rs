@@ -11,7 +11,11 @@ fn expect_error(text: &str, needle: &str) -> crate::util::Run {
     let run = taumap(dir.path(), &["invert", "bad.csv"]);
     assert_eq!(run.code, 2, "{}", run.explain());
     assert!(run.stderr.starts_with("error: "), "{}", run.explain());
-    assert!(run.stderr.contains(needle), "wanted {needle:?}\n{}", run.explain());
+    assert!(
+        run.stderr.contains(needle),
+        "wanted {needle:?}\n{}",
+        run.explain()
+    );
     assert!(!run.stderr.contains("panicked"), "{}", run.explain());
     assert!(
         !dir.path().join("bad-taumap").exists(),
@@ -66,8 +70,15 @@ fn too_few_points() {
 
 #[test]
 fn missing_column_is_reported_at_the_header() {
-    let run = expect_error("frequency_hz,z_re_ohm\n1,10\n2,9\n3,8\n4,7\n5,6\n", "bad.csv:1:");
-    assert!(run.stderr.to_lowercase().contains("imaginary"), "{}", run.explain());
+    let run = expect_error(
+        "frequency_hz,z_re_ohm\n1,10\n2,9\n3,8\n4,7\n5,6\n",
+        "bad.csv:1:",
+    );
+    assert!(
+        run.stderr.to_lowercase().contains("imaginary"),
+        "{}",
+        run.explain()
+    );
 }
 
 #[test]
@@ -81,10 +92,18 @@ fn wrong_field_count_and_empty_file() {
 #[test]
 fn binary_garbage_does_not_panic() {
     let dir = tempdir();
-    std::fs::write(dir.path().join("bad.csv"), [0xff, 0xfe, 0x00, 0x41, 0x0a, 0x80]).unwrap();
+    std::fs::write(
+        dir.path().join("bad.csv"),
+        [0xff, 0xfe, 0x00, 0x41, 0x0a, 0x80],
+    )
+    .unwrap();
     let run = taumap(dir.path(), &["invert", "bad.csv"]);
     assert_eq!(run.code, 2, "{}", run.explain());
-    assert!(run.stderr.starts_with("error: bad.csv"), "{}", run.explain());
+    assert!(
+        run.stderr.starts_with("error: bad.csv"),
+        "{}",
+        run.explain()
+    );
     assert!(!run.stderr.contains("panicked"));
 }
 
@@ -93,20 +112,37 @@ fn missing_file_and_bad_options() {
     let dir = tempdir();
     let run = taumap(dir.path(), &["invert", "nowhere.csv"]);
     assert_eq!(run.code, 2, "{}", run.explain());
-    assert!(run.stderr.starts_with("error: nowhere.csv"), "{}", run.explain());
+    assert!(
+        run.stderr.starts_with("error: nowhere.csv"),
+        "{}",
+        run.explain()
+    );
 
     std::fs::write(dir.path().join("ok.csv"), format!("{HEAD}{ROWS}")).unwrap();
     for (args, needle) in [
-        (vec!["invert", "ok.csv", "--lambda", "-1"], "--lambda"),
-        (vec!["invert", "ok.csv", "--lambda", "sometimes"], "--lambda"),
-        (vec!["invert", "ok.csv", "--penalty-order", "3"], "penalty-order"),
+        (vec!["invert", "ok.csv", "--lambda=-1"], "--lambda"),
+        (
+            vec!["invert", "ok.csv", "--lambda", "sometimes"],
+            "--lambda",
+        ),
+        (
+            vec!["invert", "ok.csv", "--penalty-order", "3"],
+            "penalty-order",
+        ),
         (vec!["invert", "ok.csv", "--per-decade", "0"], "per-decade"),
-        (vec!["invert", "ok.csv", "--tau-min", "-1"], "tau-min"),
-        (vec!["invert", "ok.csv", "--basis", "hat", "--penalty-order", "2"], "penalty order 2"),
+        (vec!["invert", "ok.csv", "--tau-min=-1"], "tau-min"),
+        (
+            vec!["invert", "ok.csv", "--basis", "hat", "--penalty-order", "2"],
+            "penalty order 2",
+        ),
     ] {
         let run = taumap(dir.path(), &args);
         assert_eq!(run.code, 2, "{}", run.explain());
-        assert!(run.stderr.contains(needle), "wanted {needle:?}\n{}", run.explain());
+        assert!(
+            run.stderr.contains(needle),
+            "wanted {needle:?}\n{}",
+            run.explain()
+        );
         assert!(!run.stderr.contains("panicked"));
     }
 }
@@ -117,16 +153,29 @@ fn missing_file_and_bad_options() {
 fn failed_run_keeps_previous_results() {
     let dir = tempdir();
     std::fs::write(dir.path().join("cell.csv"), voigt_csv()).unwrap();
-    let ok = taumap(dir.path(), &["invert", "cell.csv", "--out", "res", "--no-plots"]);
+    let ok = taumap(
+        dir.path(),
+        &["invert", "cell.csv", "--out", "res", "--no-plots"],
+    );
     assert_eq!(ok.code, 0, "{}", ok.explain());
     let before = std::fs::read(dir.path().join("res/summary.json")).unwrap();
-    std::fs::write(dir.path().join("cell.csv"), "frequency_hz,z_re_ohm,z_im_ohm\n1,2\n").unwrap();
+    std::fs::write(
+        dir.path().join("cell.csv"),
+        "frequency_hz,z_re_ohm,z_im_ohm\n1,2\n",
+    )
+    .unwrap();
     let bad = taumap(dir.path(), &["invert", "cell.csv", "--out", "res"]);
     assert_eq!(bad.code, 2, "{}", bad.explain());
-    assert_eq!(std::fs::read(dir.path().join("res/summary.json")).unwrap(), before);
+    assert_eq!(
+        std::fs::read(dir.path().join("res/summary.json")).unwrap(),
+        before
+    );
     let names: Vec<String> = std::fs::read_dir(dir.path().join("res"))
         .unwrap()
         .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
         .collect();
-    assert!(names.iter().all(|n| !n.starts_with('.')), "no temporaries left: {names:?}");
+    assert!(
+        names.iter().all(|n| !n.starts_with('.')),
+        "no temporaries left: {names:?}"
+    );
 }

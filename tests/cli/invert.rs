@@ -9,16 +9,34 @@ fn demo_data_inverts_with_every_output() {
     let out = dir.path().join("out");
     let run = taumap(
         dir.path(),
-        &["invert", input.to_str().unwrap(), "--out", out.to_str().unwrap()],
+        &[
+            "invert",
+            input.to_str().unwrap(),
+            "--out",
+            out.to_str().unwrap(),
+        ],
     );
     assert_eq!(run.code, 0, "{}", run.explain());
     for name in [
-        "drt.csv", "fit.csv", "lambda.csv", "summary.json", "drt.svg", "drt.png", "nyquist.svg",
-        "nyquist.png", "bode.svg", "bode.png", "lambda.svg", "lambda.png",
+        "drt.csv",
+        "fit.csv",
+        "lambda.csv",
+        "summary.json",
+        "drt.svg",
+        "drt.png",
+        "nyquist.svg",
+        "nyquist.png",
+        "bode.svg",
+        "bode.png",
+        "lambda.svg",
+        "lambda.png",
     ] {
         let p = out.join(name);
         assert!(p.exists(), "missing {name}\n{}", run.explain());
-        assert!(std::fs::metadata(&p).unwrap().len() > 100, "{name} is too small");
+        assert!(
+            std::fs::metadata(&p).unwrap().len() > 100,
+            "{name} is too small"
+        );
     }
     let png = std::fs::read(out.join("drt.png")).unwrap();
     assert_eq!(&png[..8], b"\x89PNG\r\n\x1a\n");
@@ -33,7 +51,15 @@ fn demo_data_inverts_with_every_output() {
 
     let json: serde_json::Value =
         serde_json::from_str(&std::fs::read_to_string(out.join("summary.json")).unwrap()).unwrap();
-    for key in ["r_inf_ohm", "r_pol_ohm", "inductance_h", "lambda", "lambda_rule", "residual_rms_rel", "peaks"] {
+    for key in [
+        "r_inf_ohm",
+        "r_pol_ohm",
+        "inductance_h",
+        "lambda",
+        "lambda_rule",
+        "residual_rms_rel",
+        "peaks",
+    ] {
         assert!(json.get(key).is_some(), "summary.json lacks {key}");
     }
     // The demo cell (src/cli/demo.rs): R_inf 0.150 ohm, L 80 nH, R_pol 0.250 ohm.
@@ -80,7 +106,20 @@ fn fixed_lambda_and_options_are_honoured() {
     std::fs::write(dir.path().join("rc.csv"), voigt_csv()).unwrap();
     let run = taumap(
         dir.path(),
-        &["invert", "rc.csv", "--lambda", "1e-4", "--basis", "hat", "--penalty-order", "0", "--per-decade", "8", "--json", "--no-plots"],
+        &[
+            "invert",
+            "rc.csv",
+            "--lambda",
+            "1e-4",
+            "--basis",
+            "hat",
+            "--penalty-order",
+            "0",
+            "--per-decade",
+            "8",
+            "--json",
+            "--no-plots",
+        ],
     );
     assert_eq!(run.code, 0, "{}", run.explain());
     let json: serde_json::Value = serde_json::from_str(&run.stdout).unwrap();
@@ -97,8 +136,17 @@ fn demo_command_writes_data_and_plots() {
     let run = taumap(dir.path(), &["demo"]);
     assert_eq!(run.code, 0, "{}", run.explain());
     assert!(run.stdout.contains("drt.png"), "{}", run.explain());
-    let written = std::fs::read_to_string(dir.path().join("demo-data/button-cell-700c.csv")).unwrap();
-    let shipped = std::fs::read_to_string(repo_root().join("demo-data/button-cell-700c.csv")).unwrap();
-    assert_eq!(written, shipped, "checked-in demo data matches the generator");
-    assert!(dir.path().join("demo-data/button-cell-700c-taumap/summary.json").exists());
+    let written =
+        std::fs::read_to_string(dir.path().join("demo-data/button-cell-700c.csv")).unwrap();
+    let shipped =
+        std::fs::read_to_string(repo_root().join("demo-data/button-cell-700c.csv")).unwrap();
+    assert_eq!(
+        written, shipped,
+        "checked-in demo data matches the generator"
+    );
+    assert!(
+        dir.path()
+            .join("demo-data/button-cell-700c-taumap/summary.json")
+            .exists()
+    );
 }

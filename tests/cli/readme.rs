@@ -22,7 +22,9 @@ fn readme_matches_ci() {
     let script: Vec<&str> = ci
         .lines()
         .map(str::trim)
-        .filter(|l| !l.is_empty() && !l.starts_with('#') && !l.starts_with("set ") && !l.starts_with("cd "))
+        .filter(|l| {
+            !l.is_empty() && !l.starts_with('#') && !l.starts_with("set ") && !l.starts_with("cd ")
+        })
         .collect();
     assert_eq!(block, script, "README block and .ci/run differ");
     // The quick start names the two commands of a fresh clone.
