@@ -74,5 +74,10 @@ fn benches(c: &mut Criterion) {
     });
 }
 
-criterion_group!(invert_benches, benches);
+criterion_group! {
+    name = invert_benches;
+    // Criterion's own HTML plots are not needed (and need system fonts).
+    config = Criterion::default().without_plots();
+    targets = benches
+}
 criterion_main!(invert_benches);
