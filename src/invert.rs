@@ -259,6 +259,8 @@ struct Design {
     col_l: Option<usize>,
     col_c: Option<usize>,
     weight: Vec<f64>,
+    /// |Z_i| of the data (ohm).
+    modulus: Vec<f64>,
     m: usize,
 }
 
@@ -359,9 +361,11 @@ fn build(spectrum: &Spectrum, p: &InvertParams) -> Result<Design> {
             (2.0 * PI * f_min).recip().ln(),
         );
         let ext = extension_gram(&basis, band);
-        let ata = problem.design().tr_mul(problem.design());
-        let data_scale =
-            (0..n_gamma).map(|j| ata[(j, j)]).sum::<f64>() / (n_gamma as f64 * ext_self(&basis));
+        // Diagonal of A'A from the column norms: no second cross product.
+        let data_scale = (0..n_gamma)
+            .map(|j| problem.design().column(j).norm_squared())
+            .sum::<f64>()
+            / (n_gamma as f64 * basis.self_overlap());
         let mut prior = DMatrix::zeros(ncols, ncols);
         prior
             .view_mut((0, 0), (n_gamma, n_gamma))
@@ -379,6 +383,7 @@ fn build(spectrum: &Spectrum, p: &InvertParams) -> Result<Design> {
         col_l,
         col_c,
         weight,
+        modulus,
         m,
     })
 }
@@ -390,12 +395,6 @@ fn build(spectrum: &Spectrum, p: &InvertParams) -> Result<Design> {
 pub fn problem(spectrum: &Spectrum, params: &InvertParams) -> Result<Tikhonov> {
     params.validate()?;
     Ok(build(spectrum, params)?.problem)
-}
-
-/// `integral phi_j(y)^2 dy`, the self-overlap of one basis function.
-fn ext_self(basis: &Basis) -> f64 {
-    let offs = basis.quadrature_offsets();
-    offs.iter().map(|&(u, w)| w * basis.shape(u)).sum()
 }
 
 /// Gram matrix of the extension prior,
@@ -542,9 +541,7 @@ fn finish(
     let pred = d.problem.predict(&sol.x);
     let fit_re_ohm: Vec<f64> = (0..m).map(|i| pred[i] / d.weight[i]).collect();
     let fit_im_ohm: Vec<f64> = (0..m).map(|i| pred[m + i] / d.weight[i]).collect();
-    let modulus: Vec<f64> = (0..m)
-        .map(|i| spectrum.z_re_ohm[i].hypot(spectrum.z_im_ohm[i]).max(1e-300))
-        .collect();
+    let modulus: Vec<f64> = d.modulus.iter().map(|z| z.max(1e-300)).collect();
     let residual_re_rel: Vec<f64> = (0..m)
         .map(|i| (fit_re_ohm[i] - spectrum.z_re_ohm[i]) / modulus[i])
         .collect();

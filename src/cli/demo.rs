@@ -8,13 +8,13 @@
 //! values are illustrative, not measurements.
 
 use super::args::DemoArgs;
-use super::invert::{default_out_dir, write_outputs};
+use super::invert::{default_out_dir, invert_into, report_run};
 use anyhow::Result;
 use std::fmt::Write as _;
-use taumap::invert::{InvertParams, invert};
+use taumap::invert::InvertParams;
 use taumap::io::write::write_atomic;
 use taumap::io::{Spectrum, read_spectrum};
-use taumap::report::{Summary, num};
+use taumap::report::num;
 use taumap::synth::{Element, Series, add_noise, log_frequencies};
 
 /// Name of the demo spectrum file.
@@ -84,12 +84,10 @@ pub fn run(a: &DemoArgs) -> Result<()> {
         all_curves: true,
         ..InvertParams::default()
     };
-    let inv = invert(&spectrum, &params)?;
     let out = default_out_dir(&path);
-    let summary = Summary::new(&path.display().to_string(), &spectrum, &params, &inv);
-    let written = write_outputs(&out, &spectrum, &inv, &summary, true)?;
+    let (summary, written) = invert_into(&path, &spectrum, &params, &out, true)?;
     println!("demo spectrum: {}", path.display());
-    super::invert::report_run(&summary, &out, &written, false)?;
+    report_run(&summary, &out, &written, false)?;
     println!("plots: {}", out.join("drt.png").display());
     for name in ["nyquist.png", "bode.png", "lambda.png"] {
         println!("       {}", out.join(name).display());

@@ -74,11 +74,24 @@ pub fn run(a: &InvertArgs) -> Result<()> {
             a.input.display()
         );
     }
-    let inv = invert(&spectrum, &params)?;
     let out = a.out.clone().unwrap_or_else(|| default_out_dir(&a.input));
-    let summary = Summary::new(&a.input.display().to_string(), &spectrum, &params, &inv);
-    let written = write_outputs(&out, &spectrum, &inv, &summary, !a.solve.no_plots)?;
+    let (summary, written) = invert_into(&a.input, &spectrum, &params, &out, !a.solve.no_plots)?;
     report_run(&summary, &out, &written, a.solve.json)
+}
+
+/// Inverts `spectrum` (read from `input`) and commits every output to `out`
+/// together; returns the summary and the files written.
+pub fn invert_into(
+    input: &Path,
+    spectrum: &Spectrum,
+    params: &InvertParams,
+    out: &Path,
+    plots: bool,
+) -> Result<(Summary, Vec<PathBuf>)> {
+    let inv = invert(spectrum, params)?;
+    let summary = Summary::new(&input.display().to_string(), spectrum, params, &inv);
+    let written = write_outputs(out, spectrum, &inv, &summary, plots)?;
+    Ok((summary, written))
 }
 
 /// Prints either the JSON summary (with `--json`) or a short human report.

@@ -124,6 +124,15 @@ impl Basis {
         }
     }
 
+    /// Integral of the square of one basis function, `integral phi_j^2 dy`:
+    /// sqrt(pi/2)/eps (Gaussian) or 2 dy/3 (hat); the diagonal of `gram(0)`.
+    pub fn self_overlap(&self) -> f64 {
+        match self.kind {
+            BasisKind::Gaussian => (PI / 2.0).sqrt() / self.eps,
+            BasisKind::Hat => 2.0 * self.step / 3.0,
+        }
+    }
+
     /// gamma(y) = sum_j x_j phi_j(y) at the points `y`.
     pub fn evaluate(&self, coeffs: &[f64], y: &[f64]) -> Vec<f64> {
         debug_assert_eq!(coeffs.len(), self.len());
@@ -307,6 +316,23 @@ mod tests {
             let b = basis(kind);
             let q: f64 = b.quadrature_offsets().iter().map(|p| p.1).sum();
             assert!((q / b.integral() - 1.0).abs() < 1e-12, "{kind}");
+        }
+    }
+
+    #[test]
+    fn self_overlap_is_the_gram_diagonal() {
+        for kind in [BasisKind::Gaussian, BasisKind::Hat] {
+            let b = basis(kind);
+            let m = b.gram(0).unwrap();
+            assert!((b.self_overlap() / m[(7, 7)] - 1.0).abs() < 1e-14, "{kind}");
+            let quad: f64 = b
+                .quadrature_offsets()
+                .iter()
+                .map(|&(u, w)| w * b.shape(u))
+                .sum();
+            // The trapezoid step suits phi times a smooth kernel; phi^2 is
+            // narrower (width eps*sqrt 2), so the rule is only ~1e-7 accurate here.
+            assert!((b.self_overlap() / quad - 1.0).abs() < 1e-6, "{kind}");
         }
     }
 

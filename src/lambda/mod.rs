@@ -147,17 +147,10 @@ impl LambdaPath {
     /// Solves at every grid value, from the largest `lambda` down, each solve
     /// warm-started from the free set of the previous one.
     pub fn trace(problem: &Tikhonov, lambdas: &[f64]) -> Self {
-        let mut order: Vec<usize> = (0..lambdas.len()).collect();
-        order.sort_by(|&a, &b| lambdas[b].total_cmp(&lambdas[a]));
-        let mut warm: Vec<usize> = Vec::new();
-        let mut points: Vec<Option<PathPoint>> = vec![None; lambdas.len()];
-        for i in order {
-            let solution = problem.solve(lambdas[i], &warm);
-            let dof = problem.influence_trace(lambdas[i], &solution.free);
-            warm.clone_from(&solution.free);
-            points[i] = Some(PathPoint { solution, dof });
-        }
-        let mut points: Vec<PathPoint> = points.into_iter().flatten().collect();
+        let mut points = problem.sweep(lambdas, |solution| {
+            let dof = problem.influence_trace(solution.lambda, &solution.free);
+            PathPoint { solution, dof }
+        });
         points.sort_by(|a, b| a.solution.lambda.total_cmp(&b.solution.lambda));
         Self {
             points,

@@ -55,21 +55,14 @@ fn one_way(
         .collect();
     let h = test.design().select_columns(&hidden);
     let hth = h.tr_mul(&h);
-    let mut order: Vec<usize> = (0..lambdas.len()).collect();
-    order.sort_by(|&a, &b| lambdas[b].total_cmp(&lambdas[a]));
-    let mut out = vec![f64::NAN; lambdas.len()];
-    let mut warm = Vec::new();
-    for i in order {
-        let s = fit.solve(lambdas[i], &warm);
-        warm.clone_from(&s.free);
+    fit.sweep(lambdas, |s| {
         let pred = DVector::from_vec(test.predict(&s.x));
         let r: DVector<f64> = test.rhs() - pred;
-        out[i] = if hidden.is_empty() {
+        if hidden.is_empty() {
             r.norm_squared()
         } else {
             let y = nnls_normal(&hth, &h.tr_mul(&r), &[]).x;
             (r - &h * DVector::from_vec(y)).norm_squared()
-        };
-    }
-    out
+        }
+    })
 }

@@ -150,6 +150,22 @@ impl Tikhonov {
         self.finish(lambda, sol.x, sol.passive, sol.iterations, sol.status)
     }
 
+    /// Solves at every value of `lambdas`, from the largest down, each solve
+    /// warm-started from the free set of the previous one, and maps each
+    /// solution with `f`. Results come back in the order of `lambdas`.
+    pub fn sweep<T>(&self, lambdas: &[f64], mut f: impl FnMut(TikhonovSolution) -> T) -> Vec<T> {
+        let mut order: Vec<usize> = (0..lambdas.len()).collect();
+        order.sort_by(|&a, &b| lambdas[b].total_cmp(&lambdas[a]));
+        let mut warm: Vec<usize> = Vec::new();
+        let mut out: Vec<Option<T>> = (0..lambdas.len()).map(|_| None).collect();
+        for i in order {
+            let solution = self.solve(lambdas[i], &warm);
+            warm.clone_from(&solution.free);
+            out[i] = Some(f(solution));
+        }
+        out.into_iter().flatten().collect()
+    }
+
     fn finish(
         &self,
         lambda: f64,
@@ -244,6 +260,22 @@ mod tests {
         assert!((t.influence_trace(lambda, &s.free) - tr_want).abs() < 1e-12);
         let r = &a * DVector::from_column_slice(&s.x) - &b;
         assert!((s.residual_sq - r.norm_squared()).abs() < 1e-14);
+    }
+
+    #[test]
+    fn sweep_matches_cold_solves_in_input_order() {
+        let a = DMatrix::from_fn(15, 5, |i, j| (((i * 31 + j * 17) % 11) as f64 / 11.0) - 0.2);
+        let b = DVector::from_fn(15, |i, _| ((i as f64) * 0.9).sin());
+        let t = Tikhonov::new(a, b, DMatrix::identity(5, 5));
+        let lambdas = [1e-3, 1.0, 1e-1];
+        let swept = t.sweep(&lambdas, |s| (s.lambda, s.x));
+        for (k, (lam, x)) in swept.iter().enumerate() {
+            assert_eq!(*lam, lambdas[k]);
+            let cold = t.solve(lambdas[k], &[]);
+            for (u, v) in x.iter().zip(&cold.x) {
+                assert!((u - v).abs() < 1e-10);
+            }
+        }
     }
 
     #[test]
