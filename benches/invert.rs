@@ -9,26 +9,13 @@ use taumap::invert::{InvertParams, LambdaChoice, invert, problem};
 use taumap::io::Spectrum;
 use taumap::kernel::{Basis, BasisKind, ImpedanceKernel};
 use taumap::lambda::LambdaRule;
-use taumap::synth::{Element, Series, add_noise, log_frequencies};
+use taumap::synth::{cells, reference_spectrum};
 
 fn spectrum() -> Spectrum {
-    let cell = Series(vec![
-        Element::Resistor { r_ohm: 5.0 },
-        Element::Zarc {
-            r_ohm: 20.0,
-            tau_s: 1e-4,
-            phi: 0.9,
-        },
-        Element::Voigt {
-            r_ohm: 30.0,
-            tau_s: 1e-3,
-        },
-    ]);
-    let f = log_frequencies(1e-2, 1e6, 10.0);
-    assert_eq!(f.len(), 81);
-    let (mut re, mut im) = cell.sample(&f);
-    add_noise(&mut re, &mut im, 0.005, 1);
-    Spectrum::new(f, re, im).expect("valid synthetic spectrum")
+    let s =
+        reference_spectrum(&cells::zarc_plus_voigt(), 0.005, 1).expect("valid synthetic spectrum");
+    assert_eq!(s.len(), 81);
+    s
 }
 
 fn benches(c: &mut Criterion) {

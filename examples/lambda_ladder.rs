@@ -5,9 +5,8 @@
 //! Prints a Markdown table. Seeds are fixed, so the table is reproducible.
 
 use taumap::invert::{InvertParams, LambdaChoice, invert};
-use taumap::io::Spectrum;
 use taumap::lambda::LambdaRule;
-use taumap::synth::{Element, Series, add_noise, log_frequencies};
+use taumap::synth::{Series, cells, reference_spectrum};
 
 struct Case {
     name: &'static str,
@@ -18,77 +17,34 @@ struct Case {
 }
 
 fn ladder() -> Vec<Case> {
-    use Element::*;
     vec![
         Case {
             name: "Voigt",
-            cell: Series(vec![
-                Resistor { r_ohm: 10.0 },
-                Voigt {
-                    r_ohm: 50.0,
-                    tau_s: 1e-3,
-                },
-            ]),
+            cell: cells::voigt(),
             peaks_tau_s: vec![1e-3],
             first_only: false,
         },
         Case {
             name: "ZARC phi=0.8",
-            cell: Series(vec![
-                Resistor { r_ohm: 10.0 },
-                Zarc {
-                    r_ohm: 50.0,
-                    tau_s: 1e-3,
-                    phi: 0.8,
-                },
-            ]),
+            cell: cells::zarc(),
             peaks_tau_s: vec![1e-3],
             first_only: false,
         },
         Case {
             name: "2 ZARC, 1 decade",
-            cell: Series(vec![
-                Resistor { r_ohm: 10.0 },
-                Zarc {
-                    r_ohm: 30.0,
-                    tau_s: 1e-4,
-                    phi: 0.85,
-                },
-                Zarc {
-                    r_ohm: 40.0,
-                    tau_s: 1e-3,
-                    phi: 0.85,
-                },
-            ]),
+            cell: cells::two_zarcs(),
             peaks_tau_s: vec![1e-4, 1e-3],
             first_only: false,
         },
         Case {
             name: "ZARC + Voigt",
-            cell: Series(vec![
-                Resistor { r_ohm: 5.0 },
-                Zarc {
-                    r_ohm: 20.0,
-                    tau_s: 1e-4,
-                    phi: 0.9,
-                },
-                Voigt {
-                    r_ohm: 30.0,
-                    tau_s: 1e-3,
-                },
-            ]),
+            cell: cells::zarc_plus_voigt(),
             peaks_tau_s: vec![1e-4, 1e-3],
             first_only: false,
         },
         Case {
             name: "finite Warburg",
-            cell: Series(vec![
-                Resistor { r_ohm: 5.0 },
-                WarburgFinite {
-                    r_ohm: 20.0,
-                    tau_s: 1.0,
-                },
-            ]),
+            cell: cells::finite_warburg(),
             // first line tau_W/((1/2)^2 pi^2)
             peaks_tau_s: vec![1.0 / (0.25 * std::f64::consts::PI.powi(2))],
             first_only: true,
@@ -119,10 +75,8 @@ fn main() {
             for case in ladder() {
                 for &noise in &noises {
                     for &seed in &seeds {
-                        let f = log_frequencies(1e-2, 1e6, 10.0);
-                        let (mut re, mut im) = case.cell.sample(&f);
-                        add_noise(&mut re, &mut im, noise, seed);
-                        let s = Spectrum::new(f, re, im).expect("synthetic spectrum is valid");
+                        let s = reference_spectrum(&case.cell, noise, seed)
+                            .expect("synthetic spectrum is valid");
                         let p = InvertParams {
                             lambda: LambdaChoice::Rule(rule),
                             penalty_order: order,

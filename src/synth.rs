@@ -204,6 +204,97 @@ impl Series {
     }
 }
 
+/// Reference cells shared by the tests, the benchmarks and the lambda-rule
+/// ladder (examples/lambda_ladder.rs), so that every check runs on the same
+/// spectra. Magnitudes are common practice for a cell of about 1 cm2.
+pub mod cells {
+    use super::{Element, Series};
+
+    /// 10 ohm + Voigt element (50 ohm, 1 ms): one DRT line of 50 ohm at 1 ms.
+    pub fn voigt() -> Series {
+        Series(vec![
+            Element::Resistor { r_ohm: 10.0 },
+            Element::Voigt {
+                r_ohm: 50.0,
+                tau_s: 1e-3,
+            },
+        ])
+    }
+
+    /// 10 ohm + ZARC (50 ohm, 1 ms, phi 0.8): a broad Fuoss-Kirkwood peak.
+    pub fn zarc() -> Series {
+        Series(vec![
+            Element::Resistor { r_ohm: 10.0 },
+            Element::Zarc {
+                r_ohm: 50.0,
+                tau_s: 1e-3,
+                phi: 0.8,
+            },
+        ])
+    }
+
+    /// 10 ohm + ZARC (30 ohm, 0.1 ms, 0.85) + ZARC (40 ohm, 1 ms, 0.85).
+    pub fn two_zarcs() -> Series {
+        Series(vec![
+            Element::Resistor { r_ohm: 10.0 },
+            Element::Zarc {
+                r_ohm: 30.0,
+                tau_s: 1e-4,
+                phi: 0.85,
+            },
+            Element::Zarc {
+                r_ohm: 40.0,
+                tau_s: 1e-3,
+                phi: 0.85,
+            },
+        ])
+    }
+
+    /// 5 ohm + ZARC (20 ohm, 0.1 ms, 0.9) + Voigt element (30 ohm, 1 ms): a
+    /// broad and a sharp process one decade apart.
+    pub fn zarc_plus_voigt() -> Series {
+        Series(vec![
+            Element::Resistor { r_ohm: 5.0 },
+            Element::Zarc {
+                r_ohm: 20.0,
+                tau_s: 1e-4,
+                phi: 0.9,
+            },
+            Element::Voigt {
+                r_ohm: 30.0,
+                tau_s: 1e-3,
+            },
+        ])
+    }
+
+    /// 5 ohm + finite-length Warburg element (20 ohm, 1 s).
+    pub fn finite_warburg() -> Series {
+        Series(vec![
+            Element::Resistor { r_ohm: 5.0 },
+            Element::WarburgFinite {
+                r_ohm: 20.0,
+                tau_s: 1.0,
+            },
+        ])
+    }
+}
+
+/// The reference sampling of the tests and benchmarks: 1e-2 to 1e6 Hz at 10
+/// points per decade (81 points), with proportional noise `noise_rel` (none
+/// when 0) drawn with `seed` (see [`add_noise`]).
+pub fn reference_spectrum(
+    cell: &Series,
+    noise_rel: f64,
+    seed: u64,
+) -> crate::Result<crate::io::Spectrum> {
+    let f = log_frequencies(1e-2, 1e6, 10.0);
+    let (mut re, mut im) = cell.sample(&f);
+    if noise_rel > 0.0 {
+        add_noise(&mut re, &mut im, noise_rel, seed);
+    }
+    crate::io::Spectrum::new(f, re, im)
+}
+
 /// Log-spaced frequencies from `f_min_hz` to `f_max_hz` inclusive, `per_decade` per decade.
 pub fn log_frequencies(f_min_hz: f64, f_max_hz: f64, per_decade: f64) -> Vec<f64> {
     let decades = (f_max_hz / f_min_hz).log10();

@@ -8,15 +8,10 @@ use taumap::invert::{InductanceMode, Inversion, InvertParams, LambdaChoice, inve
 use taumap::io::Spectrum;
 use taumap::kernel::BasisKind;
 use taumap::lambda::LambdaRule;
-use taumap::synth::{Element, Series, add_noise, log_frequencies};
+use taumap::synth::{Element, Series, cells, log_frequencies, reference_spectrum};
 
 fn spectrum(cell: &Series, noise: f64, seed: u64) -> Spectrum {
-    let f = log_frequencies(1e-2, 1e6, 10.0);
-    let (mut re, mut im) = cell.sample(&f);
-    if noise > 0.0 {
-        add_noise(&mut re, &mut im, noise, seed);
-    }
-    Spectrum::new(f, re, im).unwrap()
+    reference_spectrum(cell, noise, seed).unwrap()
 }
 
 fn run(s: &Spectrum) -> Inversion {
@@ -127,19 +122,7 @@ fn finite_warburg_first_line() {
 /// Two ZARCs one decade apart: both found, each within 0.1 decade.
 #[test]
 fn two_zarcs_one_decade_apart() {
-    let cell = Series(vec![
-        Element::Resistor { r_ohm: 10.0 },
-        Element::Zarc {
-            r_ohm: 30.0,
-            tau_s: 1e-4,
-            phi: 0.85,
-        },
-        Element::Zarc {
-            r_ohm: 40.0,
-            tau_s: 1e-3,
-            phi: 0.85,
-        },
-    ]);
+    let cell = cells::two_zarcs();
     for noise in [0.0, 0.001] {
         let inv = run(&spectrum(&cell, noise, 5));
         assert_eq!(inv.peaks.len(), 2, "noise {noise}: {:?}", inv.peaks);
@@ -153,18 +136,7 @@ fn two_zarcs_one_decade_apart() {
 /// 0.1 decade and R_pol within 3 % (the acceptance case of the invert issue).
 #[test]
 fn zarc_plus_voigt_at_one_percent_noise() {
-    let cell = Series(vec![
-        Element::Resistor { r_ohm: 5.0 },
-        Element::Zarc {
-            r_ohm: 20.0,
-            tau_s: 1e-4,
-            phi: 0.9,
-        },
-        Element::Voigt {
-            r_ohm: 30.0,
-            tau_s: 1e-3,
-        },
-    ]);
+    let cell = cells::zarc_plus_voigt();
     for seed in [1, 2, 3] {
         let inv = run(&spectrum(&cell, 0.01, seed));
         assert_eq!(inv.peaks.len(), 2, "seed {seed}: {:?}", inv.peaks);
@@ -251,14 +223,7 @@ fn inductance_recovered_and_not_traded_against_r_inf() {
 /// noise, R_pol of a ZARC stays within 3 % over several seeds.
 #[test]
 fn extension_does_not_invent_resistance() {
-    let cell = Series(vec![
-        Element::Resistor { r_ohm: 10.0 },
-        Element::Zarc {
-            r_ohm: 50.0,
-            tau_s: 1e-3,
-            phi: 0.8,
-        },
-    ]);
+    let cell = cells::zarc();
     for seed in 20..25 {
         let inv = run(&spectrum(&cell, 0.01, seed));
         assert!(
@@ -329,14 +294,7 @@ fn invariances() {
 /// 2 % of the truth on a well-posed spectrum (0.1 % noise).
 #[test]
 fn every_rule_and_basis_agree_on_r_pol() {
-    let cell = Series(vec![
-        Element::Resistor { r_ohm: 10.0 },
-        Element::Zarc {
-            r_ohm: 50.0,
-            tau_s: 1e-3,
-            phi: 0.8,
-        },
-    ]);
+    let cell = cells::zarc();
     let s = spectrum(&cell, 0.001, 8);
     for basis in [BasisKind::Gaussian, BasisKind::Hat] {
         for rule in LambdaRule::ALL {

@@ -4,51 +4,19 @@
 
 use nalgebra::DVector;
 use taumap::invert::{InvertParams, problem};
-use taumap::io::Spectrum;
 use taumap::osqp_backend::{OsqpOptions, solve_nonneg_qp};
-use taumap::synth::{Element, Series, add_noise, log_frequencies};
+use taumap::synth::{Element, Series, cells, reference_spectrum};
 
-fn cells() -> Vec<Series> {
-    use Element::*;
-    vec![
-        Series(vec![
-            Resistor { r_ohm: 10.0 },
-            Voigt {
-                r_ohm: 50.0,
-                tau_s: 1e-3,
-            },
-        ]),
-        Series(vec![
-            Resistor { r_ohm: 10.0 },
-            Zarc {
-                r_ohm: 50.0,
-                tau_s: 1e-3,
-                phi: 0.8,
-            },
-        ]),
-        Series(vec![
-            Resistor { r_ohm: 5.0 },
-            Zarc {
-                r_ohm: 20.0,
-                tau_s: 1e-4,
-                phi: 0.9,
-            },
-            Voigt {
-                r_ohm: 30.0,
-                tau_s: 1e-3,
-            },
-            Inductor { l_h: 1e-6 },
-        ]),
-    ]
+fn test_cells() -> Vec<Series> {
+    let mut inductive = cells::zarc_plus_voigt();
+    inductive.0.push(Element::Inductor { l_h: 1e-6 });
+    vec![cells::voigt(), cells::zarc(), inductive]
 }
 
 #[test]
 fn native_and_osqp_agree() {
-    for (k, cell) in cells().iter().enumerate() {
-        let f = log_frequencies(1e-2, 1e6, 10.0);
-        let (mut re, mut im) = cell.sample(&f);
-        add_noise(&mut re, &mut im, 0.005, 77 + k as u64);
-        let s = Spectrum::new(f, re, im).unwrap();
+    for (k, cell) in test_cells().iter().enumerate() {
+        let s = reference_spectrum(cell, 0.005, 77 + k as u64).unwrap();
         let t = problem(&s, &InvertParams::default()).unwrap();
         for lambda in [1e-4, 1e-2] {
             let native = t.solve(lambda, &[]);
