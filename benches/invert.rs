@@ -5,7 +5,7 @@
 
 use criterion::{Criterion, criterion_group, criterion_main};
 use std::hint::black_box;
-use taumap::invert::{InvertParams, LambdaChoice, invert, problem};
+use taumap::invert::{DrtOptions, InvertParams, LambdaChoice, invert, problem};
 use taumap::io::Spectrum;
 use taumap::kernel::{Basis, BasisKind, ImpedanceKernel};
 use taumap::lambda::LambdaRule;
@@ -18,30 +18,37 @@ fn spectrum() -> Spectrum {
     s
 }
 
+fn with_drt(drt: DrtOptions) -> InvertParams {
+    InvertParams {
+        drt,
+        ..InvertParams::default()
+    }
+}
+
 fn benches(c: &mut Criterion) {
     let s = spectrum();
     let auto = InvertParams::default();
     c.bench_function("invert/auto_default_rule", |b| {
         b.iter(|| invert(black_box(&s), black_box(&auto)).expect("inverts"))
     });
-    let all = InvertParams {
+    let all = with_drt(DrtOptions {
         all_curves: true,
-        ..InvertParams::default()
-    };
+        ..DrtOptions::default()
+    });
     c.bench_function("invert/auto_all_rule_curves", |b| {
         b.iter(|| invert(black_box(&s), black_box(&all)).expect("inverts"))
     });
-    let gcv = InvertParams {
+    let gcv = with_drt(DrtOptions {
         lambda: LambdaChoice::Rule(LambdaRule::Gcv),
-        ..InvertParams::default()
-    };
+        ..DrtOptions::default()
+    });
     c.bench_function("invert/auto_gcv", |b| {
         b.iter(|| invert(black_box(&s), black_box(&gcv)).expect("inverts"))
     });
-    let fixed = InvertParams {
+    let fixed = with_drt(DrtOptions {
         lambda: LambdaChoice::Fixed(1e-3),
-        ..InvertParams::default()
-    };
+        ..DrtOptions::default()
+    });
     c.bench_function("invert/fixed_lambda", |b| {
         b.iter(|| invert(black_box(&s), black_box(&fixed)).expect("inverts"))
     });

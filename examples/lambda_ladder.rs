@@ -4,7 +4,7 @@
 //! Run: `cargo run --release --example lambda_ladder [penalty orders...]`
 //! Prints a Markdown table. Seeds are fixed, so the table is reproducible.
 
-use taumap::invert::{InvertParams, LambdaChoice, invert};
+use taumap::invert::{DrtOptions, InvertParams, LambdaChoice, invert};
 use taumap::lambda::LambdaRule;
 use taumap::synth::{Series, cells, reference_spectrum};
 
@@ -78,9 +78,12 @@ fn main() {
                         let s = reference_spectrum(&case.cell, noise, seed)
                             .expect("synthetic spectrum is valid");
                         let p = InvertParams {
-                            lambda: LambdaChoice::Rule(rule),
-                            penalty_order: order,
-                            all_curves: rule == LambdaRule::Recv,
+                            drt: DrtOptions {
+                                lambda: LambdaChoice::Rule(rule),
+                                penalty_order: order,
+                                all_curves: rule == LambdaRule::Recv,
+                                ..DrtOptions::default()
+                            },
                             ..InvertParams::default()
                         };
                         let inv = invert(&s, &p).expect("inversion runs");

@@ -69,6 +69,25 @@ impl TauGrid {
         per_decade: f64,
         extend_decades: f64,
     ) -> Result<Self> {
+        Self::for_tau_band(
+            1.0 / (2.0 * PI * f_max_hz),
+            1.0 / (2.0 * PI * f_min_hz),
+            per_decade,
+            extend_decades,
+        )
+    }
+
+    /// The grid for a band of time constants the data resolve,
+    /// `[tau_lo_s, tau_hi_s]`, extended by `extend_decades` on each side:
+    /// from `tau_lo_s / 10^extend` to `tau_hi_s * 10^extend`. For a step
+    /// transient the band runs from the first sample after the step to the
+    /// record length.
+    pub fn for_tau_band(
+        tau_lo_s: f64,
+        tau_hi_s: f64,
+        per_decade: f64,
+        extend_decades: f64,
+    ) -> Result<Self> {
         if !(extend_decades.is_finite() && (0.0..=4.0).contains(&extend_decades)) {
             return Err(Error::Param {
                 name: "extend-decades",
@@ -77,11 +96,7 @@ impl TauGrid {
             });
         }
         let ext = 10f64.powf(extend_decades);
-        Self::new(
-            1.0 / (2.0 * PI * f_max_hz) / ext,
-            ext / (2.0 * PI * f_min_hz),
-            per_decade,
-        )
+        Self::new(tau_lo_s / ext, tau_hi_s * ext, per_decade)
     }
 
     /// Number of grid points.

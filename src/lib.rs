@@ -52,6 +52,7 @@ pub mod lambda;
 pub mod osqp_backend;
 pub mod peaks;
 pub mod plot;
+pub mod regularise;
 pub mod report;
 pub mod solve;
 pub mod synth;

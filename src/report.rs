@@ -6,10 +6,13 @@
 //! - `lambda.csv`: one row per grid value of lambda, one column per computed rule
 //! - `summary.json`: see [`Summary`]
 
-use crate::invert::{Inversion, InvertParams, LambdaChoice};
+use crate::grid::TauGrid;
+use crate::invert::{Inversion, InvertParams};
 use crate::io::Spectrum;
+use crate::lambda::LambdaCurves;
 use crate::lambda::LambdaRule;
 use crate::peaks::Peak;
+use crate::regularise::DrtOptions;
 use serde::Serialize;
 use std::fmt::Write as _;
 
@@ -121,9 +124,9 @@ pub struct RuleChoice {
     pub lambda: Option<f64>,
 }
 
-/// Settings that shaped the result.
+/// Discretisation settings that shaped a distribution (every inversion).
 #[derive(Clone, Debug, Serialize)]
-pub struct Settings {
+pub struct DrtSettings {
     /// Basis family.
     pub basis: String,
     /// Penalty derivative order.
@@ -136,14 +139,38 @@ pub struct Settings {
     pub tau_max_s: f64,
     /// Number of basis functions.
     pub n_tau: usize,
+    /// Lower bound applied to automatic lambda.
+    pub lambda_floor: f64,
+}
+
+impl DrtSettings {
+    /// The settings of `opts` on the grid actually used.
+    pub fn new(opts: &DrtOptions, grid: &TauGrid) -> Self {
+        let tau = grid.tau_s();
+        Self {
+            basis: opts.basis.to_string(),
+            penalty_order: opts.penalty_order,
+            per_decade: opts.per_decade,
+            tau_min_s: tau[0],
+            tau_max_s: tau[tau.len() - 1],
+            n_tau: tau.len(),
+            lambda_floor: opts.lambda_floor,
+        }
+    }
+}
+
+/// Settings that shaped a spectrum's result.
+#[derive(Clone, Debug, Serialize)]
+pub struct Settings {
+    /// Grid, basis and lambda settings.
+    #[serde(flatten)]
+    pub drt: DrtSettings,
     /// Residual weighting.
     pub weighting: String,
     /// Whether an inductance was modelled.
     pub inductance_modelled: bool,
     /// Whether a series capacitance was modelled.
     pub series_capacitance_modelled: bool,
-    /// Lower bound applied to automatic lambda.
-    pub lambda_floor: f64,
 }
 
 /// `summary.json`.
@@ -182,7 +209,6 @@ pub struct Summary {
 impl Summary {
     /// Collects the summary of an inversion.
     pub fn new(input: &str, spectrum: &Spectrum, params: &InvertParams, inv: &Inversion) -> Self {
-        let tau = inv.grid.tau_s();
         Self {
             input: input.to_string(),
             n_points: spectrum.len(),
@@ -191,47 +217,51 @@ impl Summary {
             inductance_h: inv.inductance_h,
             series_capacitance_f: inv.series_capacitance_f.filter(|c| c.is_finite()),
             lambda: inv.lambda,
-            lambda_rule: match (params.lambda, inv.lambda_rule) {
-                (LambdaChoice::Fixed(_), _) | (_, None) => "fixed".into(),
-                (_, Some(r)) => r.name().into(),
-            },
+            lambda_rule: rule_label(inv.lambda_rule),
             lambda_floored: inv.lambda_floored,
-            lambda_candidates: inv
-                .curves
-                .as_ref()
-                .map(|c| {
-                    c.rules
-                        .iter()
-                        .map(|r| RuleChoice {
-                            rule: r.rule,
-                            lambda: r.chosen,
-                        })
-                        .collect()
-                })
-                .unwrap_or_default(),
+            lambda_candidates: candidates(inv.curves.as_ref()),
             residual_rms_rel: inv.residual_rms_rel,
             peaks: inv.peaks.iter().map(PeakSummary::from).collect(),
             solver_status: inv.info.status,
             settings: Settings {
-                basis: params.basis.to_string(),
-                penalty_order: params.penalty_order,
-                per_decade: params.per_decade,
-                tau_min_s: tau[0],
-                tau_max_s: tau[tau.len() - 1],
-                n_tau: tau.len(),
+                drt: DrtSettings::new(&params.drt, &inv.grid),
                 weighting: format!("{:?}", params.weighting).to_lowercase(),
                 inductance_modelled: inv.inductance_h.is_some(),
                 series_capacitance_modelled: inv.series_capacitance_f.is_some(),
-                lambda_floor: params.lambda_floor,
             },
         }
     }
 
     /// Pretty JSON text with a final newline.
     pub fn to_json(&self) -> String {
-        let mut s =
-            serde_json::to_string_pretty(self).unwrap_or_else(|e| format!("{{\"error\":\"{e}\"}}"));
-        s.push('\n');
-        s
+        to_json(self)
     }
+}
+
+/// Pretty JSON text of any summary, with a final newline.
+pub fn to_json<T: Serialize>(value: &T) -> String {
+    let mut s =
+        serde_json::to_string_pretty(value).unwrap_or_else(|e| format!("{{\"error\":\"{e}\"}}"));
+    s.push('\n');
+    s
+}
+
+/// `"fixed"` or the name of the rule that chose lambda.
+pub fn rule_label(rule: Option<LambdaRule>) -> String {
+    rule.map_or_else(|| "fixed".into(), |r| r.name().into())
+}
+
+/// Every computed rule's own choice, for the record.
+pub fn candidates(curves: Option<&LambdaCurves>) -> Vec<RuleChoice> {
+    curves
+        .map(|c| {
+            c.rules
+                .iter()
+                .map(|r| RuleChoice {
+                    rule: r.rule,
+                    lambda: r.chosen,
+                })
+                .collect()
+        })
+        .unwrap_or_default()
 }

@@ -4,7 +4,7 @@
 //! 1e6 Hz at 10 points per decade unless said otherwise; noise is proportional
 //! Gaussian with a fixed seed.
 
-use taumap::invert::{InductanceMode, Inversion, InvertParams, LambdaChoice, invert};
+use taumap::invert::{DrtOptions, InductanceMode, Inversion, InvertParams, LambdaChoice, invert};
 use taumap::io::Spectrum;
 use taumap::kernel::BasisKind;
 use taumap::lambda::LambdaRule;
@@ -300,9 +300,12 @@ fn every_rule_and_basis_agree_on_r_pol() {
         for rule in LambdaRule::ALL {
             for order in [0, 1] {
                 let p = InvertParams {
-                    basis,
-                    penalty_order: order,
-                    lambda: LambdaChoice::Rule(rule),
+                    drt: DrtOptions {
+                        basis,
+                        penalty_order: order,
+                        lambda: LambdaChoice::Rule(rule),
+                        ..Default::default()
+                    },
                     ..Default::default()
                 };
                 let inv = invert(&s, &p).unwrap();

@@ -11,7 +11,7 @@ use super::args::DemoArgs;
 use super::invert::{default_out_dir, invert_into, report_run};
 use anyhow::Result;
 use std::fmt::Write as _;
-use taumap::invert::InvertParams;
+use taumap::invert::{DrtOptions, InvertParams};
 use taumap::io::write::write_atomic;
 use taumap::io::{Spectrum, read_spectrum};
 use taumap::report::num;
@@ -81,7 +81,10 @@ pub fn run(a: &DemoArgs) -> Result<()> {
     // Read back through the public reader, as a user's file would be.
     let spectrum = read_spectrum(&path)?;
     let params = InvertParams {
-        all_curves: true,
+        drt: DrtOptions {
+            all_curves: true,
+            ..DrtOptions::default()
+        },
         ..InvertParams::default()
     };
     let out = default_out_dir(&path);

@@ -4,17 +4,19 @@ use super::args::{BasisArg, InductanceArg, InvertArgs, SolveArgs, WeightingArg};
 use anyhow::{Result, bail};
 use std::io::Write;
 use std::path::{Path, PathBuf};
-use taumap::invert::{InductanceMode, Inversion, InvertParams, LambdaChoice, Weighting, invert};
+use taumap::invert::{InductanceMode, Inversion, InvertParams, Weighting, invert};
 use taumap::io::Spectrum;
 use taumap::io::spectrum::read_spectrum_with_layout;
 use taumap::io::write::OutputSet;
 use taumap::kernel::BasisKind;
+use taumap::lambda::LambdaChoice;
 use taumap::lambda::LambdaRule;
 use taumap::plot::{self, ImageFormat};
+use taumap::regularise::DrtOptions;
 use taumap::report::{self, Summary};
 
-/// Turns the shared options into inversion parameters.
-pub fn params_from(solve: &SolveArgs) -> Result<InvertParams> {
+/// Turns the shared solver options into [`DrtOptions`].
+pub fn drt_options_from(solve: &SolveArgs) -> Result<DrtOptions> {
     let lambda = match LambdaRule::from_name(&solve.lambda) {
         Some(rule) => LambdaChoice::Rule(rule),
         None => match solve.lambda.trim().parse::<f64>() {
@@ -25,7 +27,7 @@ pub fn params_from(solve: &SolveArgs) -> Result<InvertParams> {
             ),
         },
     };
-    let p = InvertParams {
+    let p = DrtOptions {
         per_decade: solve.per_decade,
         tau_min_s: solve.tau_min,
         tau_max_s: solve.tau_max,
@@ -36,7 +38,7 @@ pub fn params_from(solve: &SolveArgs) -> Result<InvertParams> {
         penalty_order: solve.penalty_order,
         lambda,
         all_curves: true,
-        ..InvertParams::default()
+        ..DrtOptions::default()
     };
     p.validate()?;
     Ok(p)
@@ -56,17 +58,19 @@ pub fn default_out_dir(input: &Path) -> PathBuf {
 
 /// Runs the subcommand.
 pub fn run(a: &InvertArgs) -> Result<()> {
-    let mut params = params_from(&a.solve)?;
-    params.inductance = match a.inductance {
-        InductanceArg::Auto => InductanceMode::Auto,
-        InductanceArg::On => InductanceMode::On,
-        InductanceArg::Off => InductanceMode::Off,
+    let params = InvertParams {
+        drt: drt_options_from(&a.solve)?,
+        inductance: match a.inductance {
+            InductanceArg::Auto => InductanceMode::Auto,
+            InductanceArg::On => InductanceMode::On,
+            InductanceArg::Off => InductanceMode::Off,
+        },
+        weighting: match a.weighting {
+            WeightingArg::Modulus => Weighting::Modulus,
+            WeightingArg::Unit => Weighting::Unit,
+        },
+        series_capacitance: a.series_capacitance,
     };
-    params.weighting = match a.weighting {
-        WeightingArg::Modulus => Weighting::Modulus,
-        WeightingArg::Unit => Weighting::Unit,
-    };
-    params.series_capacitance = a.series_capacitance;
     let (spectrum, layout) = read_spectrum_with_layout(&a.input)?;
     if layout.imag_mostly_positive {
         eprintln!(

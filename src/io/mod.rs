@@ -10,6 +10,7 @@
 
 pub mod spectrum;
 pub mod table;
+pub mod transient;
 pub mod write;
 
 pub use spectrum::{Spectrum, parse_spectrum, read_spectrum};

@@ -63,94 +63,225 @@ pub struct Row {
 /// Fails with [`Error::Io`] when reading fails and with [`Error::Parse`]
 /// (at the offending line) when the file is empty, is not UTF-8, has an
 /// unterminated quote or a row with the wrong number of fields.
-pub fn read_table<R: BufRead>(mut reader: R, path: &Path, example_header: &str) -> Result<Table> {
-    let mut bytes = Vec::new();
-    reader.read_to_end(&mut bytes).map_err(|source| Error::Io {
-        path: path.to_path_buf(),
-        source,
-    })?;
-    let parse_err = |line: usize, msg: String| Error::Parse {
-        path: path.to_path_buf(),
-        line,
-        msg,
-    };
-
-    if bytes.starts_with(&[0xFF, 0xFE]) || bytes.starts_with(&[0xFE, 0xFF]) {
-        return Err(parse_err(
-            1,
-            "file is encoded as UTF-16 (save it as UTF-8)".to_string(),
-        ));
-    }
-    let body = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(&bytes);
-    if body.iter().all(u8::is_ascii_whitespace) {
-        return Err(parse_err(
-            1,
-            format!("file is empty (expected a header line such as \"{example_header}\")"),
-        ));
-    }
-
-    let mut header: Option<(usize, char, Vec<String>, String)> = None;
+pub fn read_table<R: BufRead>(reader: R, path: &Path, example_header: &str) -> Result<Table> {
+    let mut stream = TableReader::new(reader, path, example_header)?;
     let mut rows = Vec::new();
-    for (line_no, raw) in Lines::new(body) {
-        let text = std::str::from_utf8(raw).map_err(|e| {
-            let at = e.valid_up_to();
-            let byte = raw.get(at).copied().unwrap_or(0);
-            parse_err(
-                line_no,
-                format!(
-                    "line is not valid UTF-8 (byte 0x{byte:02X} at column {}; save the file as UTF-8)",
-                    at + 1
-                ),
-            )
-        })?;
-        let trimmed = text.trim();
-        if trimmed.is_empty() || trimmed.starts_with('#') {
-            continue;
-        }
-        match &header {
-            None => {
-                let delimiter = detect_delimiter(text);
-                let fields =
-                    split_fields(text, delimiter).map_err(|msg| parse_err(line_no, msg))?;
-                header = Some((line_no, delimiter, fields, trimmed.to_string()));
-            }
-            Some((_, delimiter, names, _)) => {
-                let fields =
-                    split_fields(text, *delimiter).map_err(|msg| parse_err(line_no, msg))?;
-                if fields.iter().all(String::is_empty) {
-                    continue;
-                }
-                if fields.len() != names.len() {
-                    return Err(parse_err(
-                        line_no,
-                        format!("expected {} fields, found {}", names.len(), fields.len()),
-                    ));
-                }
-                rows.push(Row {
-                    line: line_no,
-                    fields,
-                });
-            }
-        }
+    while let Some(row) = stream.next_row()? {
+        rows.push(row);
     }
-
-    let Some((header_line, delimiter, header, header_text)) = header else {
-        return Err(parse_err(
-            1,
-            format!(
-                "no header line found, only comments and blank lines \
-                 (expected a header line such as \"{example_header}\")"
-            ),
-        ));
-    };
     Ok(Table {
-        path: path.to_path_buf(),
-        delimiter,
-        header,
-        header_text,
-        header_line,
+        path: stream.path,
+        delimiter: stream.delimiter,
+        header: stream.header,
+        header_text: stream.header_text,
+        header_line: stream.header_line,
         rows,
     })
+}
+
+/// A delimited table read one row at a time, in memory bounded by the
+/// longest line: for records too long to hold as text (a data logger's
+/// million samples). Same layout and errors as [`read_table`].
+#[derive(Debug)]
+pub struct TableReader<R: BufRead> {
+    reader: R,
+    /// The file being read (used in error messages only).
+    pub path: PathBuf,
+    /// The delimiter detected from the header line.
+    pub delimiter: char,
+    /// Column names as written (trimmed, quotes removed), one per field.
+    pub header: Vec<String>,
+    /// The header line as written, trimmed, for quoting in messages.
+    pub header_text: String,
+    /// 1-based physical line number of the header.
+    pub header_line: usize,
+    lines: LineSource,
+}
+
+/// Physical lines pulled from a reader, numbered from 1: ends `\n`, `\r\n`
+/// or a lone `\r`; a leading byte-order mark is dropped.
+#[derive(Debug, Default)]
+struct LineSource {
+    line: usize,
+    started: bool,
+    chunk: Vec<u8>,
+    pending: std::collections::VecDeque<Vec<u8>>,
+}
+
+impl LineSource {
+    fn next<R: BufRead>(&mut self, reader: &mut R, path: &Path) -> Result<Option<(usize, String)>> {
+        if self.pending.is_empty() {
+            self.chunk.clear();
+            let n = reader
+                .read_until(b'\n', &mut self.chunk)
+                .map_err(|source| Error::Io {
+                    path: path.to_path_buf(),
+                    source,
+                })?;
+            if n == 0 {
+                return Ok(None);
+            }
+            let mut body: &[u8] = &self.chunk;
+            if !self.started {
+                self.started = true;
+                if body.starts_with(&[0xFF, 0xFE]) || body.starts_with(&[0xFE, 0xFF]) {
+                    return Err(Error::Parse {
+                        path: path.to_path_buf(),
+                        line: 1,
+                        msg: "file is encoded as UTF-16 (save it as UTF-8)".into(),
+                    });
+                }
+                body = body.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(body);
+                if body.is_empty() {
+                    return Ok(None);
+                }
+            }
+            let body = body.strip_suffix(b"\n").unwrap_or(body);
+            let body = body.strip_suffix(b"\r").unwrap_or(body);
+            // Whatever carriage returns remain are lone-CR line ends.
+            self.pending
+                .extend(body.split(|b| *b == b'\r').map(<[u8]>::to_vec));
+        }
+        let Some(raw) = self.pending.pop_front() else {
+            return Ok(None);
+        };
+        self.line += 1;
+        let line_no = self.line;
+        match String::from_utf8(raw) {
+            Ok(text) => Ok(Some((line_no, text))),
+            Err(e) => {
+                let at = e.utf8_error().valid_up_to();
+                let byte = e.as_bytes().get(at).copied().unwrap_or(0);
+                Err(Error::Parse {
+                    path: path.to_path_buf(),
+                    line: line_no,
+                    msg: format!(
+                        "line is not valid UTF-8 (byte 0x{byte:02X} at column {}; save the file as UTF-8)",
+                        at + 1
+                    ),
+                })
+            }
+        }
+    }
+}
+
+impl<R: BufRead> TableReader<R> {
+    /// Reads up to and including the header line.
+    ///
+    /// Fails as [`read_table`] does for an empty file, a file without a
+    /// header, bad encoding or an unterminated quote in the header.
+    pub fn new(mut reader: R, path: &Path, example_header: &str) -> Result<Self> {
+        let mut lines = LineSource::default();
+        let mut saw_comment = false;
+        loop {
+            let Some((line_no, text)) = lines.next(&mut reader, path)? else {
+                let msg = if saw_comment {
+                    format!(
+                        "no header line found, only comments and blank lines \
+                         (expected a header line such as \"{example_header}\")"
+                    )
+                } else {
+                    format!("file is empty (expected a header line such as \"{example_header}\")")
+                };
+                return Err(Error::Parse {
+                    path: path.to_path_buf(),
+                    line: 1,
+                    msg,
+                });
+            };
+            let trimmed = text.trim();
+            if trimmed.is_empty() {
+                continue;
+            }
+            if trimmed.starts_with('#') {
+                saw_comment = true;
+                continue;
+            }
+            let delimiter = detect_delimiter(&text);
+            let header = split_fields(&text, delimiter).map_err(|msg| Error::Parse {
+                path: path.to_path_buf(),
+                line: line_no,
+                msg,
+            })?;
+            return Ok(Self {
+                reader,
+                path: path.to_path_buf(),
+                delimiter,
+                header,
+                header_text: trimmed.to_string(),
+                header_line: line_no,
+                lines,
+            });
+        }
+    }
+
+    /// The next data row, skipping comments, blank lines and lines of
+    /// delimiters only; `None` at the end of the file.
+    pub fn next_row(&mut self) -> Result<Option<Row>> {
+        while let Some((line_no, text)) = self.lines.next(&mut self.reader, &self.path)? {
+            let trimmed = text.trim();
+            if trimmed.is_empty() || trimmed.starts_with('#') {
+                continue;
+            }
+            let fields = split_fields(&text, self.delimiter).map_err(|msg| Error::Parse {
+                path: self.path.clone(),
+                line: line_no,
+                msg,
+            })?;
+            if fields.iter().all(String::is_empty) {
+                continue;
+            }
+            if fields.len() != self.header.len() {
+                return Err(Error::Parse {
+                    path: self.path.clone(),
+                    line: line_no,
+                    msg: format!(
+                        "expected {} fields, found {}",
+                        self.header.len(),
+                        fields.len()
+                    ),
+                });
+            }
+            return Ok(Some(Row {
+                line: line_no,
+                fields,
+            }));
+        }
+        Ok(None)
+    }
+
+    /// Indices of the columns matching `aliases`; see [`Table::find_columns`].
+    pub fn find_columns(&self, aliases: &[&str]) -> Vec<usize> {
+        find_columns(&self.header, aliases)
+    }
+
+    /// The column name as written, or `""` when `col` is out of range.
+    pub fn column_name(&self, col: usize) -> &str {
+        self.header.get(col).map_or("", String::as_str)
+    }
+
+    /// Parses field `col` of `row` as a finite number; see [`parse_finite`].
+    pub fn number(&self, row: &Row, col: usize) -> Result<f64> {
+        parse_finite(&self.path, row.line, row.field(col), self.column_name(col))
+    }
+
+    /// An [`Error::Parse`] for this file at `line`.
+    pub fn error(&self, line: usize, msg: impl Into<String>) -> Error {
+        Error::Parse {
+            path: self.path.clone(),
+            line,
+            msg: msg.into(),
+        }
+    }
+}
+
+fn find_columns(header: &[String], aliases: &[&str]) -> Vec<usize> {
+    header
+        .iter()
+        .enumerate()
+        .filter(|(_, name)| name_matches(name, aliases))
+        .map(|(i, _)| i)
+        .collect()
 }
 
 impl Row {
@@ -164,12 +295,7 @@ impl Table {
     /// Indices (0-based) of the columns whose normalised name (see
     /// [`normalize_name`]) equals one of `aliases`, which must be lower case.
     pub fn find_columns(&self, aliases: &[&str]) -> Vec<usize> {
-        self.header
-            .iter()
-            .enumerate()
-            .filter(|(_, name)| name_matches(name, aliases))
-            .map(|(i, _)| i)
-            .collect()
+        find_columns(&self.header, aliases)
     }
 
     /// The column name as written, or `""` when `col` is out of range.
@@ -399,45 +525,6 @@ fn split_fields(line: &str, delimiter: char) -> std::result::Result<Vec<String>,
         if chars.next().is_none() {
             return Ok(fields);
         }
-    }
-}
-
-/// Physical lines of a byte buffer, numbered from 1, without line ends.
-struct Lines<'a> {
-    rest: &'a [u8],
-    line: usize,
-}
-
-impl<'a> Lines<'a> {
-    fn new(bytes: &'a [u8]) -> Self {
-        Lines {
-            rest: bytes,
-            line: 0,
-        }
-    }
-}
-
-impl<'a> Iterator for Lines<'a> {
-    type Item = (usize, &'a [u8]);
-
-    fn next(&mut self) -> Option<Self::Item> {
-        if self.rest.is_empty() {
-            return None;
-        }
-        self.line += 1;
-        let end = self
-            .rest
-            .iter()
-            .position(|b| *b == b'\n' || *b == b'\r')
-            .unwrap_or(self.rest.len());
-        let line = &self.rest[..end];
-        let skip = match self.rest.get(end..end + 2) {
-            Some(b"\r\n") => 2,
-            _ if end < self.rest.len() => 1,
-            _ => 0,
-        };
-        self.rest = &self.rest[end + skip..];
-        Some((self.line, line))
     }
 }
 

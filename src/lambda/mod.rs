@@ -76,6 +76,30 @@ impl std::fmt::Display for LambdaRule {
     }
 }
 
+/// How `lambda` is set.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub enum LambdaChoice {
+    /// Chosen by a rule over the lambda grid.
+    Rule(LambdaRule),
+    /// Fixed by the user.
+    Fixed(f64),
+}
+
+/// Every computed rule's curve over the lambda grid.
+#[derive(Clone, Debug, serde::Serialize)]
+pub struct LambdaCurves {
+    /// The grid.
+    pub lambda: Vec<f64>,
+    /// `||A x - b||^2` at each grid point.
+    pub residual_sq: Vec<f64>,
+    /// Penalty `x'Mx` at each grid point.
+    pub penalty_sq: Vec<f64>,
+    /// Effective number of parameters (influence-matrix trace).
+    pub dof: Vec<f64>,
+    /// One curve per rule that was computed.
+    pub rules: Vec<RuleCurve>,
+}
+
 /// A log-spaced grid of `lambda` values.
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct LambdaGrid {
