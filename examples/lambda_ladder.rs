@@ -113,7 +113,7 @@ fn main() {
                             let got: Vec<String> = inv
                                 .peaks
                                 .iter()
-                                .map(|p| format!("{:.2}@{:.2}", p.tau_s.log10(), p.r_ohm))
+                                .map(|p| format!("{:.2}@{:.2}", p.tau_s.log10(), p.area))
                                 .collect();
                             eprintln!(
                                 "fail k={order} {rule} {} noise={noise} seed={seed}: {got:?}",

@@ -325,12 +325,12 @@ fn finish(
 
     let (ln_tau, gamma_ohm) = sample_distribution(&d.basis, &coeffs_ohm, params.drt.oversample);
     let mut peak_opts = params.drt.peaks;
-    if peak_opts.min_r_ohm <= 0.0 {
+    if peak_opts.min_area <= 0.0 {
         // A process whose resistance is below ~3 times the absolute noise of
         // the fit cannot be told from the residual (common practice).
         let mut sorted = modulus.clone();
         sorted.sort_by(f64::total_cmp);
-        peak_opts.min_r_ohm = 3.0 * residual_rms_rel * sorted[m / 2];
+        peak_opts.min_area = 3.0 * residual_rms_rel * sorted[m / 2];
     }
     let peaks = find_peaks(&ln_tau, &gamma_ohm, &peak_opts);
     Ok(Inversion {

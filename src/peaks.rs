@@ -13,7 +13,7 @@
 //! - its height is below `min_height_rel` of the largest peak;
 //! - its prominence (height above the higher separating minimum) is below
 //!   `min_prominence_rel` of its own height;
-//! - its area is below `min_r_ohm` (what the fit can resolve, set by the caller
+//! - its area is below `min_area` (what the fit can resolve, set by the caller
 //!   from the noise level) or below `min_area_rel` of the total area.
 //!
 //! The thresholds are common practice in peak picking (prominence as in
@@ -29,8 +29,8 @@ pub struct PeakOptions {
     pub min_prominence_rel: f64,
     /// Minimum area relative to the total area under gamma.
     pub min_area_rel: f64,
-    /// Minimum area in ohm (resolution of the fit).
-    pub min_r_ohm: f64,
+    /// Minimum area in the distribution's unit (resolution of the fit).
+    pub min_area: f64,
 }
 
 impl Default for PeakOptions {
@@ -39,7 +39,7 @@ impl Default for PeakOptions {
             min_height_rel: 0.01,
             min_prominence_rel: 0.1,
             min_area_rel: 0.03,
-            min_r_ohm: 0.0,
+            min_area: 0.0,
         }
     }
 }
@@ -51,10 +51,12 @@ pub struct Peak {
     pub tau_s: f64,
     /// Characteristic frequency 1/(2 pi tau) (Hz).
     pub frequency_hz: f64,
-    /// Area of gamma between the separating minima (ohm).
-    pub r_ohm: f64,
-    /// gamma at the maximum (ohm per unit ln tau).
-    pub gamma_ohm: f64,
+    /// Area of the distribution between the separating minima, in its unit
+    /// (ohm for a DRT: the process's resistance; siemens for the admittance
+    /// distribution of a voltage step).
+    pub area: f64,
+    /// The distribution at the maximum (its unit per unit ln tau).
+    pub height: f64,
     /// Lower end of the peak's region (s).
     pub tau_lo_s: f64,
     /// Upper end of the peak's region (s).
@@ -91,8 +93,8 @@ pub fn find_peaks(ln_tau: &[f64], gamma: &[f64], opts: &PeakOptions) -> Vec<Peak
             let badness = (g[i] / (opts.min_height_rel * highest))
                 .min(prominence / opts.min_prominence_rel)
                 .min(area / (opts.min_area_rel * total))
-                .min(if opts.min_r_ohm > 0.0 {
-                    area / opts.min_r_ohm
+                .min(if opts.min_area > 0.0 {
+                    area / opts.min_area
                 } else {
                     f64::INFINITY
                 });
@@ -150,8 +152,8 @@ fn make_peak(ln_tau: &[f64], g: &[f64], i: usize, lo: usize, hi: usize) -> Peak 
     Peak {
         tau_s,
         frequency_hz: 1.0 / (2.0 * std::f64::consts::PI * tau_s),
-        r_ohm: trapezoid(ln_tau, g, lo, hi),
-        gamma_ohm: peak_value,
+        area: trapezoid(ln_tau, g, lo, hi),
+        height: peak_value,
         tau_lo_s: ln_tau[lo].exp(),
         tau_hi_s: ln_tau[hi].exp(),
     }
@@ -186,9 +188,9 @@ mod tests {
         assert_eq!(p.len(), 2);
         assert!((p[0].tau_s.ln() + 3.0).abs() < 1e-3);
         assert!((p[1].tau_s.ln() - 3.3).abs() < 1e-3);
-        assert!((p[0].r_ohm - 5.0).abs() < 1e-6);
-        assert!((p[1].r_ohm - 2.0).abs() < 1e-6);
-        assert!((p[0].gamma_ohm - a1).abs() < 1e-3 * a1);
+        assert!((p[0].area - 5.0).abs() < 1e-6);
+        assert!((p[1].area - 2.0).abs() < 1e-6);
+        assert!((p[0].height - a1).abs() < 1e-3 * a1);
     }
 
     #[test]
@@ -204,7 +206,7 @@ mod tests {
         assert_eq!(p.len(), 1, "{p:?}");
         // the ripple's area joins the main peak: the total is preserved
         let total = trapezoid(&y, &g, 0, y.len() - 1);
-        assert!((p[0].r_ohm - total).abs() < 1e-12);
+        assert!((p[0].area - total).abs() < 1e-12);
     }
 
     #[test]
@@ -221,7 +223,7 @@ mod tests {
             .collect();
         assert_eq!(find_peaks(&y, &g2, &PeakOptions::default()).len(), 2);
         let strict = PeakOptions {
-            min_r_ohm: 0.5,
+            min_area: 0.5,
             ..PeakOptions::default()
         };
         assert_eq!(find_peaks(&y, &g2, &strict).len(), 1);

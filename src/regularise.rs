@@ -43,7 +43,7 @@ pub struct DrtOptions {
     pub lambda_floor: f64,
     /// Compute every rule's curve, not only the one that decides.
     pub all_curves: bool,
-    /// Peak reporting thresholds (`min_r_ohm` is set from the fit when 0).
+    /// Peak reporting thresholds (`min_area` is set from the fit when 0).
     pub peaks: PeakOptions,
     /// Output samples of gamma per grid step.
     pub oversample: usize,

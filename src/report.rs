@@ -109,8 +109,8 @@ impl From<&Peak> for PeakSummary {
         Self {
             tau_s: p.tau_s,
             frequency_hz: p.frequency_hz,
-            r_ohm: p.r_ohm,
-            gamma_ohm: p.gamma_ohm,
+            r_ohm: p.area,
+            gamma_ohm: p.height,
         }
     }
 }

@@ -171,6 +171,62 @@ impl Element {
     }
 }
 
+impl Element {
+    /// The part of the element's voltage per ampere that has not yet relaxed
+    /// at `t_s > 0` after a current step (equally: the part still to decay
+    /// after a long current is interrupted),
+    /// `integral gamma(ln tau) exp(-t/tau) d ln tau`, in ohm.
+    ///
+    /// Voigt: `R exp(-t/tau)`. Finite Warburg: the sum over its lines
+    /// `2R/a_k exp(-a_k t/tau)`, `a_k = ((k - 1/2) pi)^2` (the lines of
+    /// [`Element::lines`]). ZARC and Havriliak-Negami: their distributions
+    /// integrated numerically (composite 8-point Gauss-Legendre, 0.05 ln
+    /// units per panel, over +-40/phi ln units around tau0, where the
+    /// Fuoss-Kirkwood tails are below 1e-13 R). Zero for R, L and C.
+    pub fn unrelaxed_ohm(&self, t_s: f64) -> f64 {
+        match *self {
+            Element::Voigt { r_ohm, tau_s } => r_ohm * (-t_s / tau_s).exp(),
+            Element::WarburgFinite { r_ohm, tau_s } => {
+                let mut sum = 0.0;
+                for k in 1..1_000_000 {
+                    let a = ((k as f64 - 0.5) * PI).powi(2);
+                    let term = 2.0 * r_ohm / a * (-a * t_s / tau_s).exp();
+                    sum += term;
+                    if term < 1e-17 * r_ohm {
+                        break;
+                    }
+                }
+                sum
+            }
+            Element::Zarc { tau_s, phi, .. } => self.integrate_gamma(t_s, tau_s, 40.0 / phi),
+            Element::HavriliakNegami {
+                tau_s, alpha, beta, ..
+            } => self.integrate_gamma(t_s, tau_s, 40.0 / (alpha * beta.min(1.0))),
+            _ => 0.0,
+        }
+    }
+
+    fn integrate_gamma(&self, t_s: f64, tau0_s: f64, half_width: f64) -> f64 {
+        let gl = crate::kernel::quadrature::gauss_legendre(8);
+        let h = 0.05;
+        let y0 = tau0_s.ln() - half_width;
+        let panels = (2.0 * half_width / h).ceil() as usize;
+        let mut sum = 0.0;
+        for p in 0..panels {
+            let a = y0 + p as f64 * h;
+            for &(x, w) in &gl {
+                let y = a + h * (x + 1.0) / 2.0;
+                let tau = y.exp();
+                let decay = (-t_s / tau).exp();
+                if decay > 0.0 {
+                    sum += w * h / 2.0 * self.gamma_ohm(tau).unwrap_or(0.0) * decay;
+                }
+            }
+        }
+        sum
+    }
+}
+
 /// Elements in series.
 #[derive(Clone, Debug, Default, PartialEq)]
 pub struct Series(pub Vec<Element>);
@@ -190,6 +246,30 @@ impl Series {
     /// Total polarisation resistance.
     pub fn r_pol_ohm(&self) -> f64 {
         self.0.iter().map(Element::r_pol_ohm).sum()
+    }
+
+    /// Voltage per ampere at `t_s > 0` after a current step from rest at
+    /// t = 0 (in ohm): the series resistances, plus each element's relaxed
+    /// part `r_pol - unrelaxed(t)`, plus `t/C` for series capacitors
+    /// (superposition of the elements' step responses in series; textbook
+    /// network relation). Inductors contribute only at t = 0.
+    pub fn current_step_ohm(&self, t_s: f64) -> f64 {
+        self.0
+            .iter()
+            .map(|e| match *e {
+                Element::Resistor { r_ohm } => r_ohm,
+                Element::Capacitor { c_f } => t_s / c_f,
+                Element::Inductor { .. } => 0.0,
+                _ => e.r_pol_ohm() - e.unrelaxed_ohm(t_s),
+            })
+            .sum()
+    }
+
+    /// Voltage above its final value, per ampere, at `t_s > 0` after a long
+    /// constant current is interrupted at t = 0 (in ohm): the sum of
+    /// [`Element::unrelaxed_ohm`].
+    pub fn relaxation_ohm(&self, t_s: f64) -> f64 {
+        self.0.iter().map(|e| e.unrelaxed_ohm(t_s)).sum()
     }
 
     /// Impedance at each frequency as `(z_re_ohm, z_im_ohm)` vectors.
@@ -317,6 +397,20 @@ pub fn add_noise(z_re: &mut [f64], z_im: &mut [f64], rel: f64, seed: u64) {
     }
 }
 
+/// Adds Gaussian noise of standard deviation `sigma` to every value (white
+/// noise of an instrument channel), with a ChaCha8 generator seeded by `seed`.
+pub fn add_white_noise(values: &mut [f64], sigma: f64, seed: u64) {
+    let mut rng = ChaCha8Rng::seed_from_u64(seed);
+    for v in values.iter_mut() {
+        *v += sigma * normal(&mut rng);
+    }
+}
+
+/// Log-spaced times from `t_min_s` to `t_max_s` inclusive, `per_decade` per decade.
+pub fn log_times(t_min_s: f64, t_max_s: f64, per_decade: f64) -> Vec<f64> {
+    log_frequencies(t_min_s, t_max_s, per_decade)
+}
+
 /// Standard normal deviate by the Box-Muller transform (G. E. P. Box,
 /// M. E. Muller (1958), Ann. Math. Statist. 29(2), 610-611).
 pub fn normal(rng: &mut impl Rng) -> f64 {
@@ -428,5 +522,72 @@ mod tests {
         assert_eq!(a, c);
         let var: f64 = b.iter().map(|x| x * x).sum::<f64>() / 2000.0;
         assert!((var.sqrt() - 0.1).abs() < 0.01, "std {}", var.sqrt());
+    }
+    /// Short- and long-time limits of the ZARC step response. The response of
+    /// R/(1 + (s tau0)^phi) to a unit current step is R [1 - E_phi(-(t/tau0)^phi)]
+    /// with the Mittag-Leffler function E_phi, whose series gives
+    /// 1 - E ~ x^phi / Gamma(1 + phi) for t << tau0 and whose asymptotic
+    /// expansion gives E ~ x^-phi / Gamma(1 - phi) for t >> tau0
+    /// (R. Gorenflo, A. A. Kilbas, F. Mainardi, S. V. Rogosin (2014),
+    /// *Mittag-Leffler Functions, Related Topics and Applications*, Springer,
+    /// ch. 3; recalled from memory). With phi = 1/2: Gamma(3/2) = sqrt(pi)/2,
+    /// Gamma(1/2) = sqrt(pi).
+    #[test]
+    fn zarc_step_response_limits() {
+        let e = Element::Zarc {
+            r_ohm: 2.0,
+            tau_s: 1e-2,
+            phi: 0.5,
+        };
+        let s = Series(vec![e]);
+        let x: f64 = 1e-8;
+        let want = 2.0 * x.sqrt() / (PI.sqrt() / 2.0);
+        let got = s.current_step_ohm(x * 1e-2);
+        assert!((got / want - 1.0).abs() < 2e-3, "{got} vs {want}");
+        let x: f64 = 1e8;
+        let want = 2.0 / x.sqrt() / PI.sqrt();
+        let got = s.relaxation_ohm(x * 1e-2);
+        assert!((got / want - 1.0).abs() < 2e-3, "{got} vs {want}");
+        // Fully unrelaxed at t -> 0: the whole resistance.
+        assert!((s.relaxation_ohm(1e-30) - 2.0).abs() < 1e-9);
+    }
+
+    /// At short times a finite Warburg behaves as semi-infinite diffusion,
+    /// Z = R / sqrt(s tau), whose unit-step response is 2 R sqrt(t/(pi tau))
+    /// (Laplace pair 1/s^(3/2) <-> 2 sqrt(t/pi); standard transform tables,
+    /// e.g. Abramowitz & Stegun 29.3.4). At long times it relaxes as its
+    /// slowest line, 8R/pi^2 exp(-pi^2 t / (4 tau)).
+    #[test]
+    fn warburg_step_response_limits() {
+        let s = Series(vec![Element::WarburgFinite {
+            r_ohm: 1.0,
+            tau_s: 1.0,
+        }]);
+        for t in [1e-6, 1e-4] {
+            let want = 2.0 * (t / PI).sqrt();
+            let got = s.current_step_ohm(t);
+            assert!((got / want - 1.0).abs() < 1e-6, "t={t}: {got} vs {want}");
+        }
+        let t = 3.0;
+        let want = 8.0 / (PI * PI) * (-PI * PI * t / 4.0).exp();
+        assert!((s.relaxation_ohm(t) / want - 1.0).abs() < 1e-9);
+    }
+
+    /// A series R + Voigt + C under a current step: R + R1 (1 - e^-t/tau) + t/C.
+    #[test]
+    fn voigt_and_capacitor_step_response() {
+        let s = Series(vec![
+            Element::Resistor { r_ohm: 0.5 },
+            Element::Inductor { l_h: 1e-6 },
+            Element::Voigt {
+                r_ohm: 2.0,
+                tau_s: 1e-3,
+            },
+            Element::Capacitor { c_f: 10.0 },
+        ]);
+        let t = 2e-3;
+        let want = 0.5 + 2.0 * (1.0 - (-2.0f64).exp()) + t / 10.0;
+        assert!((s.current_step_ohm(t) - want).abs() < 1e-14);
+        assert!((s.relaxation_ohm(t) - 2.0 * (-2.0f64).exp()).abs() < 1e-14);
     }
 }
