@@ -56,5 +56,6 @@ pub mod regularise;
 pub mod report;
 pub mod solve;
 pub mod synth;
+pub mod transient;
 
 pub use error::{Error, Result};

@@ -1,0 +1,257 @@
+//! Accuracy of step-transient inversion against closed-form responses of
+//! textbook networks and against the impedance route.
+//!
+//! Every check names its source beside it. Noise is white Gaussian with a
+//! fixed seed ([`taumap::synth::add_white_noise`]).
+
+use std::io::Read;
+use std::path::Path;
+use taumap::invert::{InvertParams, invert};
+use taumap::io::transient::{BinnedTransient, DEFAULT_BINS_PER_DECADE, Quantity, parse_transient};
+use taumap::synth::{Element, Series, add_white_noise, cells, log_times, reference_spectrum};
+use taumap::transient::{
+    BaselineSource, DistributionUnit, StepKind, TransientInversion, TransientParams,
+    invert_transient,
+};
+
+fn decades(a: f64, b: f64) -> f64 {
+    (a / b).log10().abs()
+}
+
+fn uniform_times(dt_s: f64, n: usize) -> Vec<f64> {
+    (1..=n).map(|k| k as f64 * dt_s).collect()
+}
+
+fn run(t: &[f64], v: &[f64], step: StepKind) -> TransientInversion {
+    let rec = BinnedTransient::from_samples(t, v, DEFAULT_BINS_PER_DECADE).unwrap();
+    invert_transient(&rec, &TransientParams::new(step)).unwrap()
+}
+
+/// Series R-C under a voltage step, R = 50 ohm, C = 20 uF (common practice
+/// for an electrolyte resistance and a 1 cm2 double layer): the current is
+/// i(t) = (U/R) exp(-t/(RC)) (textbook first-order network), so the
+/// admittance distribution is one line of weight 1/R at tau = RC = 1 ms and
+/// no steady conductance.
+#[test]
+fn series_rc_voltage_step_gives_one_line_of_weight_one_over_r() {
+    let (r, c, u) = (50.0, 20e-6, 0.1);
+    let tau = r * c;
+    // 200 kHz sampling for 20 ms, 10 pre-step samples at zero current.
+    let mut t: Vec<f64> = (1..=10).rev().map(|k| -(k as f64) * 5e-6).collect();
+    t.extend(uniform_times(5e-6, 4000));
+    let clean: Vec<f64> = t
+        .iter()
+        .map(|&t| {
+            if t < 0.0 {
+                0.0
+            } else {
+                u / r * (-t / tau).exp()
+            }
+        })
+        .collect();
+    // Rule of thumb: after 5 tau the current is below 1 % of its start
+    // (e^-5 = 0.67 %).
+    let i0 = u / r;
+    let at_5tau = clean[10 + 999];
+    assert!((t[10 + 999] - 5.0 * tau).abs() < 1e-12);
+    assert!(at_5tau < 0.01 * i0 && at_5tau > 0.006 * i0, "{at_5tau}");
+    let mut i = clean.clone();
+    add_white_noise(&mut i, 1e-3 * i0, 11);
+    let inv = run(&t, &i, StepKind::VoltageStep { voltage_v: u });
+    assert_eq!(inv.unit, DistributionUnit::Siemens);
+    assert_eq!(inv.baseline_source, BaselineSource::PreStepSamples);
+    assert_eq!(inv.peaks.len(), 1, "{:?}", inv.peaks);
+    let p = &inv.peaks[0];
+    assert!(decades(p.tau_s, tau) < 0.05, "tau {}", p.tau_s);
+    assert!((p.area * r - 1.0).abs() < 0.02, "weight {} S", p.area);
+    assert!((inv.total * r - 1.0).abs() < 0.02, "total {} S", inv.total);
+    let g_inf = inv.instantaneous.unwrap();
+    assert!(g_inf < 0.01 / r, "g_inf {g_inf}");
+    // Noise of the bin means (1e-3 per sample, single samples early on)
+    // plus the line's model error at 20 per decade (7.5e-4).
+    assert!(inv.residual_rms_rel < 1.5e-3, "{}", inv.residual_rms_rel);
+}
+
+/// R0 + (R1 || C1) + (R2 || C2) under a current step, tau one decade apart:
+/// v(t) - v(0-) = I [R0 + R1 (1 - e^-t/tau1) + R2 (1 - e^-t/tau2)]
+/// (superposition of first-order responses in series; textbook network
+/// relation). Magnitudes: a small lithium-ion cell (common practice).
+#[test]
+fn galvanostatic_two_rc_network() {
+    let cell = Series(vec![
+        Element::Resistor { r_ohm: 0.010 },
+        Element::Voigt {
+            r_ohm: 0.020,
+            tau_s: 1e-3,
+        },
+        Element::Voigt {
+            r_ohm: 0.030,
+            tau_s: 1e-2,
+        },
+    ]);
+    let (i_a, v0) = (2.0, 3.6);
+    // 100 kHz for 0.5 s, 100 pre-step samples at rest.
+    let mut t: Vec<f64> = (1..=100).rev().map(|k| -(k as f64) * 1e-5).collect();
+    t.extend(uniform_times(1e-5, 50_000));
+    let mut v: Vec<f64> = t
+        .iter()
+        .map(|&t| {
+            if t < 0.0 {
+                v0
+            } else {
+                v0 + i_a * cell.current_step_ohm(t)
+            }
+        })
+        .collect();
+    add_white_noise(&mut v, 1e-4, 5);
+    let inv = run(&t, &v, StepKind::CurrentStep { current_a: i_a });
+    assert_eq!(inv.unit, DistributionUnit::Ohm);
+    assert_eq!(inv.peaks.len(), 2, "{:?}", inv.peaks);
+    for (p, (tau, r)) in inv.peaks.iter().zip([(1e-3, 0.020), (1e-2, 0.030)]) {
+        assert!(decades(p.tau_s, tau) < 0.1, "tau {} vs {tau}", p.tau_s);
+        assert!((p.area / r - 1.0).abs() < 0.03, "r {} vs {r}", p.area);
+    }
+    let r0 = inv.instantaneous.unwrap();
+    assert!((r0 / 0.010 - 1.0).abs() < 0.03, "r0 {r0}");
+    assert!(
+        (inv.total / 0.050 - 1.0).abs() < 0.03,
+        "r_pol {}",
+        inv.total
+    );
+}
+
+/// Cross-domain consistency on a ZARC (10 ohm + ZARC 50 ohm, 1 ms, phi 0.8):
+/// its current-step response (the Fuoss-Kirkwood distribution integrated,
+/// see synth) and its impedance spectrum must invert to the same peak and
+/// R_pol, and both to the analytical distribution (peak at tau0, area R).
+#[test]
+fn zarc_transient_agrees_with_impedance_route_and_analytics() {
+    let cell = cells::zarc();
+    let t = log_times(1e-6, 10.0, 60.0);
+    let i_a = 1e-3;
+    let mut v: Vec<f64> = t.iter().map(|&t| i_a * cell.current_step_ohm(t)).collect();
+    add_white_noise(&mut v, 1e-3 * i_a * 60.0, 3);
+    let tr = run(&t, &v, StepKind::CurrentStep { current_a: i_a });
+    assert_eq!(tr.baseline_source, BaselineSource::None);
+    let sp = invert(
+        &reference_spectrum(&cell, 0.001, 3).unwrap(),
+        &InvertParams::default(),
+    )
+    .unwrap();
+    assert_eq!(tr.peaks.len(), 1, "{:?}", tr.peaks);
+    assert_eq!(sp.peaks.len(), 1, "{:?}", sp.peaks);
+    let (pt, ps) = (&tr.peaks[0], &sp.peaks[0]);
+    assert!(
+        decades(pt.tau_s, ps.tau_s) < 0.1,
+        "{} vs {}",
+        pt.tau_s,
+        ps.tau_s
+    );
+    assert!((tr.total / sp.r_pol_ohm - 1.0).abs() < 0.03);
+    assert!(decades(pt.tau_s, 1e-3) < 0.1, "{}", pt.tau_s);
+    assert!((tr.total / 50.0 - 1.0).abs() < 0.03, "{}", tr.total);
+    assert!((tr.instantaneous.unwrap() / 10.0 - 1.0).abs() < 0.03);
+    // Shape: the distribution at tau0 within 15 % of Fuoss-Kirkwood.
+    let want = cell.gamma_ohm(1e-3);
+    let k = tr
+        .tau_s
+        .iter()
+        .enumerate()
+        .min_by(|a, b| decades(*a.1, 1e-3).total_cmp(&decades(*b.1, 1e-3)))
+        .unwrap()
+        .0;
+    assert!(
+        (tr.distribution[k] / want - 1.0).abs() < 0.15,
+        "{} vs {want}",
+        tr.distribution[k]
+    );
+}
+
+/// A relaxation after a long current through 5 ohm + Voigt(20 ohm, 2 ms):
+/// v(t) = v_inf + I R1 e^-t/tau (textbook first-order network). With the
+/// pre-step (loaded) voltage v(0-) = v_inf + I (R0 + R1) known from samples,
+/// R0 follows from the jump.
+#[test]
+fn relaxation_finds_final_value_and_series_resistance() {
+    let (r0, r1, tau, i_a, v_inf) = (5.0, 20.0, 2e-3, 0.01, 1.2);
+    let mut t: Vec<f64> = (1..=20).rev().map(|k| -(k as f64) * 2e-5).collect();
+    t.extend(uniform_times(2e-5, 5000));
+    let mut v: Vec<f64> = t
+        .iter()
+        .map(|&t| {
+            if t < 0.0 {
+                v_inf + i_a * (r0 + r1)
+            } else {
+                v_inf + i_a * r1 * (-t / tau).exp()
+            }
+        })
+        .collect();
+    add_white_noise(&mut v, 2e-4, 9);
+    let inv = run(&t, &v, StepKind::Relaxation { current_a: i_a });
+    assert_eq!(inv.peaks.len(), 1, "{:?}", inv.peaks);
+    assert!(decades(inv.peaks[0].tau_s, tau) < 0.05);
+    assert!((inv.total / r1 - 1.0).abs() < 0.02, "{}", inv.total);
+    let vf = inv.final_value.unwrap();
+    assert!((vf - v_inf).abs() < 1e-3 * i_a * r1, "v_inf {vf}");
+    let r0_fit = inv.instantaneous.unwrap();
+    assert!((r0_fit / r0 - 1.0).abs() < 0.03, "r0 {r0_fit}");
+}
+
+/// A data-logger record generated on the fly: 10^6 samples at 1 MHz, read
+/// as text without ever being held in memory, reduces to at most 25 bins per
+/// decade and still inverts to its single time constant.
+#[test]
+fn million_sample_record_streams_into_bounded_bins() {
+    struct Logger {
+        k: usize,
+        n: usize,
+        buf: Vec<u8>,
+        pos: usize,
+    }
+    impl Read for Logger {
+        fn read(&mut self, out: &mut [u8]) -> std::io::Result<usize> {
+            if self.pos == self.buf.len() {
+                self.buf.clear();
+                self.pos = 0;
+                if self.k == 0 {
+                    self.buf.extend_from_slice(b"time_s,voltage_v\n");
+                }
+                while self.k < self.n && self.buf.len() < 4096 {
+                    self.k += 1;
+                    let t = self.k as f64 * 1e-6;
+                    // 1 A step into 0.1 ohm + Voigt(0.2 ohm, 5 ms), tiny ripple.
+                    let v = 0.1
+                        + 0.2 * (1.0 - (-t / 5e-3).exp())
+                        + 1e-5 * ((self.k * 7919) % 13) as f64 / 13.0;
+                    self.buf
+                        .extend_from_slice(format!("{t:.6e},{v:.9e}\n").as_bytes());
+                }
+            }
+            let n = out.len().min(self.buf.len() - self.pos);
+            out[..n].copy_from_slice(&self.buf[self.pos..self.pos + n]);
+            self.pos += n;
+            Ok(n)
+        }
+    }
+    let reader = std::io::BufReader::new(Logger {
+        k: 0,
+        n: 1_000_000,
+        buf: Vec::new(),
+        pos: 0,
+    });
+    let rec = parse_transient(reader, Path::new("logger.csv"), Quantity::Voltage, 25.0).unwrap();
+    assert_eq!(rec.response_samples, 1_000_000);
+    // 1e-6 .. 1 s is 6 decades: at most 25 * 6 + 1 bins.
+    assert!(rec.bins.len() <= 151, "{} bins", rec.bins.len());
+    assert!(rec.bins.len() >= 120, "{} bins", rec.bins.len());
+    assert_eq!(rec.bins.iter().map(|b| b.count).sum::<usize>(), 1_000_000);
+    let inv = invert_transient(
+        &rec,
+        &TransientParams::new(StepKind::CurrentStep { current_a: 1.0 }),
+    )
+    .unwrap();
+    assert_eq!(inv.peaks.len(), 1, "{:?}", inv.peaks);
+    assert!(decades(inv.peaks[0].tau_s, 5e-3) < 0.05);
+    assert!((inv.total / 0.2 - 1.0).abs() < 0.01, "{}", inv.total);
+    assert!((inv.instantaneous.unwrap() / 0.1 - 1.0).abs() < 0.01);
+}
