@@ -249,7 +249,10 @@ pub struct TransientInversion {
     pub measured: Vec<f64>,
     /// Fitted value at each bin (V or A).
     pub fitted: Vec<f64>,
-    /// (fitted - measured) / (|amplitude| max|response|) per bin.
+    /// Size of the step response in the measured unit (V or A):
+    /// `|amplitude| * max |y|`, the largest change the fit explains.
+    pub response_span: f64,
+    /// (fitted - measured) / `response_span` per bin.
     pub residual_rel: Vec<f64>,
     /// RMS over the bins of `residual_rel`, as a fraction.
     pub residual_rms_rel: f64,
@@ -458,6 +461,7 @@ pub fn invert_transient(
         counts: record.bins.iter().map(|b| b.count).collect(),
         measured,
         fitted,
+        response_span: span,
         residual_rel,
         residual_rms_rel,
         peaks,

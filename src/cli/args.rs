@@ -17,6 +17,8 @@ pub struct Cli {
 pub enum Command {
     /// Invert an impedance spectrum (CSV) onto a distribution of relaxation times.
     Invert(InvertArgs),
+    /// Invert a step transient (CSV) onto a distribution of time constants.
+    Transient(TransientArgs),
     /// Write the demo scenario into demo-data/ and invert it.
     Demo(DemoArgs),
 }
@@ -59,15 +61,17 @@ pub struct SolveArgs {
     /// Derivative order of the penalty: 0, 1 or 2.
     #[arg(long, value_name = "K", default_value_t = 0)]
     pub penalty_order: usize,
-    /// Smallest time constant of the grid (s); default one decade below 1/(2 pi f_max).
+    /// Smallest time constant of the grid (s); default one decade below the
+    /// fastest the data resolve (1/(2 pi f_max), or the first sample after a step).
     #[arg(long, value_name = "S")]
     pub tau_min: Option<f64>,
-    /// Largest time constant of the grid (s); default one decade above 1/(2 pi f_min).
+    /// Largest time constant of the grid (s); default one decade above the
+    /// slowest the data resolve (1/(2 pi f_min), or the record length).
     #[arg(long, value_name = "S")]
     pub tau_max: Option<f64>,
-    /// Grid points per decade of tau.
-    #[arg(long, value_name = "N", default_value_t = 10.0)]
-    pub per_decade: f64,
+    /// Grid points per decade of tau [default: 10 for spectra, 20 for transients].
+    #[arg(long, value_name = "N")]
+    pub per_decade: Option<f64>,
     /// Basis functions.
     #[arg(long, value_enum, default_value = "gaussian")]
     pub basis: BasisArg,
@@ -97,6 +101,44 @@ pub struct InvertArgs {
     /// Residual weighting.
     #[arg(long, value_enum, default_value = "modulus")]
     pub weighting: WeightingArg,
+    /// Shared solver options.
+    #[command(flatten)]
+    pub solve: SolveArgs,
+}
+
+/// `taumap transient`.
+#[derive(Args, Debug)]
+#[command(group(
+    clap::ArgGroup::new("step")
+        .required(true)
+        .args(["current_step_a", "relaxation_current_a", "voltage_step_v"]),
+))]
+pub struct TransientArgs {
+    /// Input transient: time_s,voltage_v (current step, relaxation) or
+    /// time_s,current_a (voltage step); see README for accepted variants.
+    #[arg(value_name = "IN.csv")]
+    pub input: PathBuf,
+    /// Output directory (created if missing); default <stem>-taumap/ beside the input.
+    #[arg(long, value_name = "DIR")]
+    pub out: Option<PathBuf>,
+    /// A current step of I amperes at t = 0; the file holds the voltage.
+    #[arg(long, value_name = "I", allow_negative_numbers = true)]
+    pub current_step_a: Option<f64>,
+    /// A constant current of I amperes interrupted at t = 0; the file holds the voltage.
+    #[arg(long, value_name = "I", allow_negative_numbers = true)]
+    pub relaxation_current_a: Option<f64>,
+    /// A voltage step of U volts at t = 0; the file holds the current.
+    #[arg(long, value_name = "U", allow_negative_numbers = true)]
+    pub voltage_step_v: Option<f64>,
+    /// Pre-step value v(0-) in V (or i(0-) in A); overrides samples at t < 0.
+    #[arg(long, value_name = "VALUE", allow_negative_numbers = true)]
+    pub baseline: Option<f64>,
+    /// Also fit a blocking series capacitance (current steps only).
+    #[arg(long)]
+    pub series_capacitance: bool,
+    /// Time bins per decade for the reduction of long records.
+    #[arg(long, value_name = "N", default_value_t = 25.0)]
+    pub bins_per_decade: f64,
     /// Shared solver options.
     #[command(flatten)]
     pub solve: SolveArgs,

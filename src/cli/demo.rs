@@ -4,7 +4,10 @@
 //! cell, 1 cm2, measured at 700 C at open circuit. Its spectrum holds a series
 //! resistance (electrolyte and contacts), lead inductance, a fast depressed arc
 //! (anode charge transfer), a slower near-ideal arc (cathode) and a
-//! finite-length gas-diffusion response, with 0.3 % proportional noise. All
+//! finite-length gas-diffusion response, with 0.3 % proportional noise. The
+//! same cell is also pulse-tested: from rest at open circuit, a discharge
+//! current step of 0.1 A (0.1 A/cm2, small enough for a linear response) is
+//! applied at t = 0 and the voltage is logged on a logarithmic time base. All
 //! values are illustrative, not measurements.
 
 use super::args::DemoArgs;
@@ -15,10 +18,23 @@ use taumap::invert::{DrtOptions, InvertParams};
 use taumap::io::write::write_atomic;
 use taumap::io::{Spectrum, read_spectrum};
 use taumap::report::num;
-use taumap::synth::{Element, Series, add_noise, log_frequencies};
+use super::transient::{self, transient_into};
+use taumap::io::transient::{DEFAULT_BINS_PER_DECADE, Quantity, read_transient};
+use taumap::synth::{Element, Series, add_noise, add_white_noise, log_frequencies, log_times};
+use taumap::transient::{StepKind, TransientParams};
 
 /// Name of the demo spectrum file.
 pub const SPECTRUM_FILE: &str = "button-cell-700c.csv";
+
+/// Name of the demo pulse-test file.
+pub const PULSE_FILE: &str = "button-cell-700c-pulse.csv";
+
+/// Discharge step of the pulse test (A); negative: current out of the
+/// positive terminal.
+pub const PULSE_CURRENT_A: f64 = -0.1;
+
+/// Open-circuit voltage before the pulse (V).
+const OPEN_CIRCUIT_V: f64 = 1.05;
 
 /// The demo cell as a series of analytical elements.
 pub fn demo_cell() -> Series {
@@ -48,6 +64,38 @@ pub fn demo_spectrum() -> Result<Spectrum> {
     let (mut re, mut im) = demo_cell().sample(&f);
     add_noise(&mut re, &mut im, 0.003, 2026);
     Ok(Spectrum::new(f, re, im)?)
+}
+
+/// The demo pulse test: 40 samples at rest (-40 ms..-1 ms), then 100 per
+/// decade from 1 us to 5 s; 20 uV white noise (seed 2027). Returns
+/// (time_s, voltage_v).
+pub fn demo_pulse() -> (Vec<f64>, Vec<f64>) {
+    let cell = demo_cell();
+    let mut t: Vec<f64> = (1..=40).rev().map(|k| -(k as f64) * 1e-3).collect();
+    t.extend(log_times(1e-6, 5.0, 100.0));
+    let mut v: Vec<f64> = t
+        .iter()
+        .map(|&t| {
+            if t < 0.0 {
+                OPEN_CIRCUIT_V
+            } else {
+                OPEN_CIRCUIT_V + PULSE_CURRENT_A * cell.current_step_ohm(t)
+            }
+        })
+        .collect();
+    add_white_noise(&mut v, 20e-6, 2027);
+    (t, v)
+}
+
+fn pulse_csv(t: &[f64], v: &[f64]) -> String {
+    let mut out = String::new();
+    out.push_str("# taumap demo: pulse test of the button cell of button-cell-700c.csv\n");
+    out.push_str("# at rest at open circuit, then a discharge step of -0.1 A at t = 0; 20 uV noise, seed 2027\n");
+    out.push_str("time_s,voltage_v\n");
+    for (t, v) in t.iter().zip(v) {
+        let _ = writeln!(out, "{},{}", num(*t), num(*v));
+    }
+    out
 }
 
 fn spectrum_csv(s: &Spectrum) -> String {
@@ -95,5 +143,28 @@ pub fn run(a: &DemoArgs) -> Result<()> {
     for name in ["nyquist.png", "bode.png", "lambda.png"] {
         println!("       {}", out.join(name).display());
     }
+
+    let pulse_path = a.dir.join(PULSE_FILE);
+    let (t, v) = demo_pulse();
+    write_atomic(&pulse_path, pulse_csv(&t, &v).as_bytes())?;
+    let record = read_transient(&pulse_path, Quantity::Voltage, DEFAULT_BINS_PER_DECADE)?;
+    let mut tparams = TransientParams::new(StepKind::CurrentStep {
+        current_a: PULSE_CURRENT_A,
+    });
+    tparams.drt.all_curves = true;
+    let pulse_out = default_out_dir(&pulse_path);
+    let (tsummary, twritten) = transient_into(
+        &pulse_path,
+        &record,
+        DEFAULT_BINS_PER_DECADE,
+        &tparams,
+        &pulse_out,
+        true,
+    )?;
+    println!();
+    println!("demo pulse test: {}", pulse_path.display());
+    transient::report_run(&tsummary, &pulse_out, &twritten, false)?;
+    println!("plots: {}", pulse_out.join("transient.png").display());
+    println!("       {}", pulse_out.join("drt.png").display());
     Ok(())
 }

@@ -9,14 +9,15 @@ use taumap::io::Spectrum;
 use taumap::io::spectrum::read_spectrum_with_layout;
 use taumap::io::write::OutputSet;
 use taumap::kernel::BasisKind;
-use taumap::lambda::LambdaChoice;
+use taumap::lambda::{LambdaChoice, LambdaCurves};
 use taumap::lambda::LambdaRule;
 use taumap::plot::{self, ImageFormat};
 use taumap::regularise::DrtOptions;
 use taumap::report::{self, Summary};
 
-/// Turns the shared solver options into [`DrtOptions`].
-pub fn drt_options_from(solve: &SolveArgs) -> Result<DrtOptions> {
+/// Turns the shared solver options into [`DrtOptions`], with
+/// `default_per_decade` unless `--per-decade` is given.
+pub fn drt_options_from(solve: &SolveArgs, default_per_decade: f64) -> Result<DrtOptions> {
     let lambda = match LambdaRule::from_name(&solve.lambda) {
         Some(rule) => LambdaChoice::Rule(rule),
         None => match solve.lambda.trim().parse::<f64>() {
@@ -28,7 +29,7 @@ pub fn drt_options_from(solve: &SolveArgs) -> Result<DrtOptions> {
         },
     };
     let p = DrtOptions {
-        per_decade: solve.per_decade,
+        per_decade: solve.per_decade.unwrap_or(default_per_decade),
         tau_min_s: solve.tau_min,
         tau_max_s: solve.tau_max,
         basis: match solve.basis {
@@ -59,7 +60,7 @@ pub fn default_out_dir(input: &Path) -> PathBuf {
 /// Runs the subcommand.
 pub fn run(a: &InvertArgs) -> Result<()> {
     let params = InvertParams {
-        drt: drt_options_from(&a.solve)?,
+        drt: drt_options_from(&a.solve, DrtOptions::default().per_decade)?,
         inductance: match a.inductance {
             InductanceArg::Auto => InductanceMode::Auto,
             InductanceArg::On => InductanceMode::On,
@@ -202,35 +203,37 @@ pub fn figures(spectrum: &Spectrum, inv: &Inversion) -> Result<Vec<(String, Vec<
             )?,
         ));
         if let Some(c) = &inv.curves {
-            let curves: Vec<plot::LambdaCurve> = c
-                .rules
-                .iter()
-                .map(|r| plot::LambdaCurve {
-                    name: r.rule.name(),
-                    lambda: &c.lambda,
-                    score: &r.score,
-                    y_label: match r.rule {
-                        LambdaRule::Gcv => "GCV score",
-                        LambdaRule::Lcurve => "L-curve curvature",
-                        LambdaRule::Discrepancy => "residual / noise",
-                        LambdaRule::Recv => "re-im CV score",
-                    },
-                    log_y: !matches!(r.rule, LambdaRule::Lcurve),
-                    chosen_lambda: r.chosen,
-                })
-                .collect();
-            out.push((
-                format!("lambda.{ext}"),
-                plot::render_lambda(
-                    &plot::LambdaFigure {
-                        curves: &curves,
-                        selected_lambda: inv.lambda,
-                        title: "Choice of the regularisation parameter",
-                    },
-                    fmt,
-                )?,
-            ));
+            out.push((format!("lambda.{ext}"), lambda_figure(c, inv.lambda, fmt)?));
         }
     }
     Ok(out)
+}
+
+/// The rule-score figure of any inversion.
+pub fn lambda_figure(c: &LambdaCurves, lambda: f64, fmt: ImageFormat) -> Result<Vec<u8>> {
+    let curves: Vec<plot::LambdaCurve> = c
+        .rules
+        .iter()
+        .map(|r| plot::LambdaCurve {
+            name: r.rule.name(),
+            lambda: &c.lambda,
+            score: &r.score,
+            y_label: match r.rule {
+                LambdaRule::Gcv => "GCV score",
+                LambdaRule::Lcurve => "L-curve curvature",
+                LambdaRule::Discrepancy => "residual / noise",
+                LambdaRule::Recv => "cross-validation score",
+            },
+            log_y: !matches!(r.rule, LambdaRule::Lcurve),
+            chosen_lambda: r.chosen,
+        })
+        .collect();
+    Ok(plot::render_lambda(
+        &plot::LambdaFigure {
+            curves: &curves,
+            selected_lambda: lambda,
+            title: "Choice of the regularisation parameter",
+        },
+        fmt,
+    )?)
 }

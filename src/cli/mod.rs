@@ -3,6 +3,7 @@
 pub mod args;
 pub mod demo;
 pub mod invert;
+pub mod transient;
 
 use anyhow::Result;
 use args::{Cli, Command};
@@ -11,6 +12,7 @@ use args::{Cli, Command};
 pub fn run(cli: Cli) -> Result<()> {
     match cli.command {
         Command::Invert(a) => invert::run(&a),
+        Command::Transient(a) => transient::run(&a),
         Command::Demo(a) => demo::run(&a),
     }
 }

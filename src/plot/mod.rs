@@ -140,6 +140,10 @@ pub struct TransientFigure<'a> {
     pub measured: &'a [f64],
     /// Fitted response at the same times; empty for no fit.
     pub fitted: &'a [f64],
+    /// Divisor of the residuals, in the unit of `measured` (the size of the
+    /// step response, so an offset such as a cell's rest voltage does not
+    /// shrink them); 0 for the largest measured magnitude.
+    pub residual_scale: f64,
     /// Vertical axis label including its unit, e.g. `"voltage (V)"`.
     pub y_label: &'a str,
     /// Figure title; empty for none.

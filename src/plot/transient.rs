@@ -18,7 +18,8 @@ const STEM: &str = "transient";
 ///
 /// $$ r_i = 100\,\frac{y_i - \hat y_i}{\max_j \lvert y_j \rvert} \quad (\%) $$
 ///
-/// with `y` measured and `ŷ` fitted. Scaling by the largest measured value
+/// with `y` measured and `ŷ` fitted, or with `residual_scale` in place of the
+/// largest measured magnitude when it is positive. Scaling by one value
 /// rather than point by point keeps the residuals finite where the response
 /// passes through zero.
 ///
@@ -66,6 +67,9 @@ impl<'a> TransientPlot<'a> {
             if t.is_finite() && t > 0.0 {
                 ye.add(f);
             }
+        }
+        if fig.residual_scale.is_finite() && fig.residual_scale > 0.0 {
+            scale = fig.residual_scale;
         }
         let residual_pct: Vec<f64> = if scale > f64::MIN_POSITIVE {
             fig.measured
@@ -126,7 +130,12 @@ impl Paint for TransientPlot<'_> {
         let fit_pts = draw::points(t, self.fig.fitted, x, &self.y);
         draw::draw_legend(&chart, &keys, &[&data_pts, &fit_pts])?;
 
-        let panel = self.panel(self.y_res, "residual (% of max)", true);
+        let label = if self.fig.residual_scale.is_finite() && self.fig.residual_scale > 0.0 {
+            "residual (% of step response)"
+        } else {
+            "residual (% of max)"
+        };
+        let panel = self.panel(self.y_res, label, true);
         let mut chart = common::build_panel(&bottom, &panel)?;
         draw::draw_zero_line(&mut chart, x, &self.y_res)?;
         if self.residual_pct.is_empty() {
@@ -157,6 +166,7 @@ mod tests {
             .map(|(i, v)| v + 4e-4 * ((i as f64) * 1.7).sin())
             .collect();
         let fig = TransientFigure {
+            residual_scale: 0.0,
             time_s: &t,
             measured: &measured,
             fitted: &exact,
@@ -174,6 +184,7 @@ mod tests {
     #[test]
     fn degenerate_inputs() {
         let empty = TransientFigure {
+            residual_scale: 0.0,
             time_s: &[],
             measured: &[],
             fitted: &[],
@@ -185,17 +196,20 @@ mod tests {
             .to_string();
         assert_eq!(err, "plot transient.png: nothing to plot (time_s is empty)");
         let only_zero = TransientFigure {
+            residual_scale: 0.0,
             time_s: &[0.0, -1.0],
             measured: &[1.0, 2.0],
             ..empty
         };
         assert!(render_transient(&only_zero, ImageFormat::Svg).is_err());
         let single = TransientFigure {
+            residual_scale: 0.0,
             time_s: &[1e-3],
             measured: &[0.2],
             ..empty
         };
         let flat = TransientFigure {
+            residual_scale: 0.0,
             time_s: &[0.0, 1e-3, 1e-2, f64::NAN, 1e-1],
             measured: &[0.0, 0.0, 0.0, 0.0, f64::NAN],
             fitted: &[0.0, 0.0, 0.0, 0.0, 0.0],

@@ -5,6 +5,10 @@
 //! - `fit.csv`: `frequency_hz,z_re_ohm,z_im_ohm,fit_re_ohm,fit_im_ohm,residual_re_rel,residual_im_rel`
 //! - `lambda.csv`: one row per grid value of lambda, one column per computed rule
 //! - `summary.json`: see [`Summary`]
+//!
+//! The outputs of a step transient are in [`transient`].
+
+pub mod transient;
 
 use crate::grid::TauGrid;
 use crate::invert::{Inversion, InvertParams};
@@ -67,7 +71,12 @@ pub fn rule_column(rule: LambdaRule) -> &'static str {
 
 /// `lambda.csv`, or `None` when lambda was fixed.
 pub fn lambda_csv(inv: &Inversion) -> Option<String> {
-    let c = inv.curves.as_ref()?;
+    lambda_table(inv.curves.as_ref())
+}
+
+/// `lambda.csv` from any inversion's rule curves, or `None` without curves.
+pub fn lambda_table(curves: Option<&LambdaCurves>) -> Option<String> {
+    let c = curves?;
     let mut s = String::from("lambda,residual_sq,penalty_sq,dof");
     for r in &c.rules {
         s.push(',');
