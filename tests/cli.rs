@@ -9,3 +9,5 @@ mod errors;
 mod invert;
 #[path = "cli/readme.rs"]
 mod readme;
+#[path = "cli/transient.rs"]
+mod transient;

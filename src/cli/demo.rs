@@ -12,14 +12,14 @@
 
 use super::args::DemoArgs;
 use super::invert::{default_out_dir, invert_into, report_run};
+use super::transient::{self, transient_into};
 use anyhow::Result;
 use std::fmt::Write as _;
 use taumap::invert::{DrtOptions, InvertParams};
+use taumap::io::transient::{DEFAULT_BINS_PER_DECADE, Quantity, read_transient};
 use taumap::io::write::write_atomic;
 use taumap::io::{Spectrum, read_spectrum};
 use taumap::report::num;
-use super::transient::{self, transient_into};
-use taumap::io::transient::{DEFAULT_BINS_PER_DECADE, Quantity, read_transient};
 use taumap::synth::{Element, Series, add_noise, add_white_noise, log_frequencies, log_times};
 use taumap::transient::{StepKind, TransientParams};
 

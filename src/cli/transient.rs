@@ -109,8 +109,13 @@ pub fn report_run(
             v_inf_v,
             peaks,
         } => {
-            let r_inf = r_inf_ohm.map_or("unknown (no baseline)".to_string(), |r| format!("{r:.6} ohm"));
-            writeln!(stdout, "r_inf = {r_inf}, r_pol = {r_pol_ohm:.6} ohm, {tail}")?;
+            let r_inf = r_inf_ohm.map_or("unknown (no baseline)".to_string(), |r| {
+                format!("{r:.6} ohm")
+            });
+            writeln!(
+                stdout,
+                "r_inf = {r_inf}, r_pol = {r_pol_ohm:.6} ohm, {tail}"
+            )?;
             if let Some(v) = v_inf_v {
                 writeln!(stdout, "final voltage v_inf = {v:.6} V")?;
             }
@@ -165,15 +170,13 @@ pub fn figures(inv: &TransientInversion) -> Result<Vec<(String, Vec<u8>)>> {
             "gamma (ohm)",
             "Relaxation after current interruption: voltage and fit",
         ),
-        StepKind::VoltageStep { .. } => (
-            "current (A)",
-            "g (S)",
-            "Voltage step: current and fit",
-        ),
+        StepKind::VoltageStep { .. } => ("current (A)", "g (S)", "Voltage step: current and fit"),
     };
     let drt_title = match inv.unit {
         DistributionUnit::Ohm => "Distribution of relaxation times (from the transient)",
-        DistributionUnit::Siemens => "Admittance distribution of time constants (not the impedance DRT)",
+        DistributionUnit::Siemens => {
+            "Admittance distribution of time constants (not the impedance DRT)"
+        }
     };
     let mut out = Vec::new();
     for (ext, fmt) in [("svg", ImageFormat::Svg), ("png", ImageFormat::Png)] {

@@ -144,6 +144,15 @@ fn demo_command_writes_data_and_plots() {
         written, shipped,
         "checked-in demo data matches the generator"
     );
+    let written =
+        std::fs::read_to_string(dir.path().join("demo-data/button-cell-700c-pulse.csv")).unwrap();
+    let shipped =
+        std::fs::read_to_string(repo_root().join("demo-data/button-cell-700c-pulse.csv")).unwrap();
+    assert_eq!(
+        written, shipped,
+        "checked-in pulse test matches the generator"
+    );
+    assert!(run.stdout.contains("transient.png"), "{}", run.explain());
     assert!(
         dir.path()
             .join("demo-data/button-cell-700c-taumap/summary.json")

@@ -1,0 +1,291 @@
+//! `taumap transient` end to end: the demo pulse test, each kind of step,
+//! and bad input (exit 2, `error: FILE:LINE: ...`, nothing written or lost).
+
+use crate::util::{Run, repo_root, taumap, tempdir};
+use std::fmt::Write as _;
+
+fn json(run: &Run) -> serde_json::Value {
+    serde_json::from_str(&run.stdout).unwrap_or_else(|e| panic!("{e}\n{}", run.explain()))
+}
+
+/// A series R-C (R = 50 ohm, C = 20 uF) under a 0.1 V step sampled at
+/// 200 kHz for 20 ms: i = (U/R) exp(-t/RC) (textbook first-order network).
+fn rc_current_csv() -> String {
+    let mut s = String::from("Time (ms),Current (mA)\n");
+    for k in -5i32..=4000 {
+        let t = k as f64 * 5e-6;
+        let i = if k < 0 {
+            0.0
+        } else {
+            0.1 / 50.0 * (-t / 1e-3).exp()
+        };
+        let _ = writeln!(s, "{},{}", t * 1e3, i * 1e3);
+    }
+    s
+}
+
+/// Relaxation of 5 ohm + Voigt(20 ohm, 2 ms) after 10 mA, v_inf = 1.2 V,
+/// with a loaded pre-step voltage of 1.2 + 0.01 * 25 V.
+fn relaxation_csv() -> String {
+    let mut s = String::from("time_s;voltage_v\n");
+    for k in -10i32..=3000 {
+        let t = k as f64 * 2e-5;
+        let v = if k < 0 {
+            1.2 + 0.01 * 25.0
+        } else {
+            1.2 + 0.01 * 20.0 * (-t / 2e-3).exp()
+        };
+        let _ = writeln!(s, "{t};{v}");
+    }
+    s
+}
+
+#[test]
+fn demo_pulse_inverts_to_the_peaks_of_the_demo_spectrum() {
+    let dir = tempdir();
+    let root = repo_root();
+    let pulse = root.join("demo-data/button-cell-700c-pulse.csv");
+    let spectrum = root.join("demo-data/button-cell-700c.csv");
+    let out_t = dir.path().join("t");
+    let out_s = dir.path().join("s");
+    let t = taumap(
+        dir.path(),
+        &[
+            "transient",
+            pulse.to_str().unwrap(),
+            "--current-step-a=-0.1",
+            "--out",
+            out_t.to_str().unwrap(),
+            "--json",
+        ],
+    );
+    assert_eq!(t.code, 0, "{}", t.explain());
+    let s = taumap(
+        dir.path(),
+        &[
+            "invert",
+            spectrum.to_str().unwrap(),
+            "--out",
+            out_s.to_str().unwrap(),
+            "--json",
+            "--no-plots",
+        ],
+    );
+    assert_eq!(s.code, 0, "{}", s.explain());
+    let (jt, js) = (json(&t), json(&s));
+    assert_eq!(jt["unit"], "ohm");
+    assert_eq!(jt["baseline_source"], "pre_step_samples");
+    let (pt, ps) = (
+        jt["peaks"].as_array().unwrap(),
+        js["peaks"].as_array().unwrap(),
+    );
+    assert_eq!(pt.len(), ps.len(), "{}\n{}", t.stdout, s.stdout);
+    for (a, b) in pt.iter().zip(ps) {
+        let (ta, tb) = (a["tau_s"].as_f64().unwrap(), b["tau_s"].as_f64().unwrap());
+        assert!((ta / tb).log10().abs() < 0.1, "tau {ta} vs {tb}");
+        // Areas depend on where the minima split neighbouring processes
+        // (the gas-diffusion response has a second, small line at 22 ms).
+        let (ra, rb) = (a["r_ohm"].as_f64().unwrap(), b["r_ohm"].as_f64().unwrap());
+        assert!((ra / rb - 1.0).abs() < 0.15, "r {ra} vs {rb}");
+    }
+    for key in ["r_inf_ohm", "r_pol_ohm"] {
+        let (a, b) = (jt[key].as_f64().unwrap(), js[key].as_f64().unwrap());
+        assert!((a / b - 1.0).abs() < 0.01, "{key}: {a} vs {b}");
+    }
+    for name in [
+        "drt.csv",
+        "fit.csv",
+        "lambda.csv",
+        "summary.json",
+        "transient.svg",
+        "transient.png",
+        "drt.svg",
+        "drt.png",
+        "lambda.svg",
+        "lambda.png",
+    ] {
+        assert!(out_t.join(name).exists(), "{name} missing");
+    }
+    let drt = std::fs::read_to_string(out_t.join("drt.csv")).unwrap();
+    assert!(drt.starts_with("tau_s,gamma_ohm\n"));
+    let fit = std::fs::read_to_string(out_t.join("fit.csv")).unwrap();
+    assert!(fit.starts_with("time_s,measured_v,fitted_v,residual_v,samples\n"));
+    let bins = fit.lines().count() - 1;
+    assert_eq!(bins as u64, jt["n_bins"].as_u64().unwrap());
+}
+
+#[test]
+fn voltage_step_reports_an_admittance_distribution() {
+    let dir = tempdir();
+    std::fs::write(dir.path().join("rc.csv"), rc_current_csv()).unwrap();
+    let run = taumap(
+        dir.path(),
+        &["transient", "rc.csv", "--voltage-step-v", "0.1", "--json"],
+    );
+    assert_eq!(run.code, 0, "{}", run.explain());
+    let j = json(&run);
+    assert_eq!(j["unit"], "siemens");
+    assert!(j.get("r_pol_ohm").is_none());
+    let peaks = j["peaks"].as_array().unwrap();
+    assert_eq!(peaks.len(), 1, "{}", run.stdout);
+    assert!((peaks[0]["tau_s"].as_f64().unwrap() / 1e-3).log10().abs() < 0.05);
+    assert!((peaks[0]["g_siemens"].as_f64().unwrap() * 50.0 - 1.0).abs() < 0.02);
+    assert!(j["g_inf_siemens"].as_f64().unwrap() < 2e-4);
+    let out = dir.path().join("rc-taumap");
+    let drt = std::fs::read_to_string(out.join("drt.csv")).unwrap();
+    assert!(drt.starts_with("tau_s,gamma_siemens\n"));
+    let fit = std::fs::read_to_string(out.join("fit.csv")).unwrap();
+    assert!(fit.starts_with("time_s,measured_a,fitted_a,residual_a,samples\n"));
+}
+
+#[test]
+fn relaxation_reports_final_voltage_and_series_resistance() {
+    let dir = tempdir();
+    std::fs::write(dir.path().join("relax.csv"), relaxation_csv()).unwrap();
+    let run = taumap(
+        dir.path(),
+        &[
+            "transient",
+            "relax.csv",
+            "--relaxation-current-a",
+            "0.01",
+            "--no-plots",
+        ],
+    );
+    assert_eq!(run.code, 0, "{}", run.explain());
+    assert!(
+        run.stdout.contains("final voltage v_inf = 1.19"),
+        "{}",
+        run.explain()
+    );
+    let j: serde_json::Value = serde_json::from_str(
+        &std::fs::read_to_string(dir.path().join("relax-taumap/summary.json")).unwrap(),
+    )
+    .unwrap();
+    assert!((j["v_inf_v"].as_f64().unwrap() - 1.2).abs() < 1e-4);
+    assert!((j["r_inf_ohm"].as_f64().unwrap() - 5.0).abs() < 0.1);
+    assert!((j["r_pol_ohm"].as_f64().unwrap() - 20.0).abs() < 0.2);
+    // Without the pre-step samples and without --baseline, R_inf is unknown.
+    let post: String = relaxation_csv()
+        .lines()
+        .filter(|l| !l.starts_with('-'))
+        .map(|l| format!("{l}\n"))
+        .collect();
+    std::fs::write(dir.path().join("post.csv"), post).unwrap();
+    let run = taumap(
+        dir.path(),
+        &[
+            "transient",
+            "post.csv",
+            "--relaxation-current-a=0.01",
+            "--json",
+            "--no-plots",
+        ],
+    );
+    assert_eq!(run.code, 0, "{}", run.explain());
+    let j = json(&run);
+    assert!(j["r_inf_ohm"].is_null(), "{}", run.stdout);
+    assert_eq!(j["baseline_source"], "none");
+    // --baseline supplies it.
+    let run = taumap(
+        dir.path(),
+        &[
+            "transient",
+            "post.csv",
+            "--relaxation-current-a=0.01",
+            "--baseline=1.45",
+            "--json",
+            "--no-plots",
+        ],
+    );
+    let j = json(&run);
+    assert_eq!(j["baseline_source"], "given");
+    assert!((j["r_inf_ohm"].as_f64().unwrap() - 5.0).abs() < 0.1);
+}
+
+/// Writes `text` as `bad.csv`, runs `taumap transient bad.csv ARGS`, and
+/// checks what every error must satisfy.
+fn expect_error(text: &str, args: &[&str], needle: &str) {
+    let dir = tempdir();
+    std::fs::write(dir.path().join("bad.csv"), text).unwrap();
+    let mut all = vec!["transient", "bad.csv"];
+    all.extend_from_slice(args);
+    let run = taumap(dir.path(), &all);
+    assert_eq!(run.code, 2, "{}", run.explain());
+    assert!(run.stderr.starts_with("error: "), "{}", run.explain());
+    assert!(
+        run.stderr.contains(needle),
+        "wanted {needle:?}\n{}",
+        run.explain()
+    );
+    assert!(!run.stderr.contains("panicked"), "{}", run.explain());
+    assert!(
+        !dir.path().join("bad-taumap").exists(),
+        "no output directory on failure\n{}",
+        run.explain()
+    );
+}
+
+#[test]
+fn bad_input_is_reported_with_file_and_line() {
+    let good = relaxation_csv().replace(';', ",");
+    let step = ["--current-step-a", "1"];
+    // No step option at all.
+    expect_error(&good, &[], "--current-step-a");
+    // Two step options.
+    expect_error(
+        &good,
+        &["--current-step-a", "1", "--voltage-step-v", "1"],
+        "cannot be used with",
+    );
+    // Zero amplitude.
+    expect_error(&good, &["--current-step-a", "0"], "current-step-a");
+    // Wrong quantity for the step.
+    expect_error(
+        &good,
+        &["--voltage-step-v", "0.1"],
+        "bad.csv:1: no current column",
+    );
+    // Time going backwards.
+    let mut text = good.clone();
+    text.push_str("0.01,1.2\n");
+    let line = text.lines().count();
+    expect_error(
+        &text,
+        &step,
+        &format!("bad.csv:{line}: time 0.01 does not increase"),
+    );
+    // A broken number.
+    let mut text = good.clone();
+    text.push_str("1e3x,1.2\n");
+    let line = text.lines().count();
+    expect_error(
+        &text,
+        &step,
+        &format!("bad.csv:{line}: cannot read \"1e3x\" as a number (column time_s)"),
+    );
+    // No samples after the step.
+    expect_error(
+        "time_s,voltage_v\n-2,1\n-1,1\n",
+        &step,
+        "bad.csv:1: need samples after the step",
+    );
+    // A relaxation that does not relax (a constant voltage after a
+    // current step is legal: a pure resistance).
+    let flat: String = std::iter::once("time_s,voltage_v\n".to_string())
+        .chain((1..200).map(|k| format!("{},1.0\n", k as f64 * 1e-4)))
+        .collect();
+    expect_error(&flat, &["--relaxation-current-a", "1"], "does not change");
+    // A series capacitance on a relaxation.
+    expect_error(
+        &good,
+        &["--relaxation-current-a", "1", "--series-capacitance"],
+        "series capacitance",
+    );
+    // Bad bin count.
+    expect_error(
+        &good,
+        &["--current-step-a", "1", "--bins-per-decade", "1"],
+        "bins-per-decade",
+    );
+}
