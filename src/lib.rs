@@ -1,4 +1,5 @@
-//! taumap: the distribution of relaxation times (DRT) of an impedance spectrum.
+//! taumap: the distribution of relaxation times (DRT) of an impedance spectrum
+//! or a step transient.
 //!
 //! The model is a Fredholm integral equation of the first kind,
 //!
@@ -7,16 +8,22 @@
 //! with a non-negative gamma in ohm per unit ln tau. taumap discretises it on a
 //! log-spaced grid, solves the Tikhonov-regularised non-negative least-squares
 //! problem with an exact active-set solver, chooses the regularisation
-//! parameter automatically, and reports peaks with their resistances.
+//! parameter automatically, and reports peaks with their resistances. Step
+//! transients (current steps, relaxations, voltage steps) go through the same
+//! solver on time-domain kernels ([`transient`]).
 //!
 //! # Module map
-//! - [`io`]: CSV readers (line-aware errors) and atomic output writing.
+//! - [`io`]: CSV readers (line-aware errors, streaming with log-time binning
+//!   for long transients) and atomic output writing.
 //! - [`grid`]: the log-spaced tau grid.
-//! - [`kernel`]: basis functions, quadrature, impedance kernel matrices.
+//! - [`kernel`]: basis functions, quadrature, impedance and step kernels.
 //! - [`solve`]: NNLS and the Tikhonov problem (plain matrices only).
 //! - [`lambda`]: rules for choosing lambda (GCV, L-curve, discrepancy, re-im CV).
 //! - [`peaks`]: peak detection and per-peak resistance.
+//! - [`regularise`]: what every inversion shares: options, extension prior,
+//!   choice of lambda, final solve, sampled distribution.
 //! - [`invert`]: the full pipeline, spectrum to DRT.
+//! - [`transient`]: the full pipeline, step transient to distribution.
 //! - [`report`]: output tables and the JSON summary.
 //! - [`plot`]: SVG and PNG figures.
 //! - [`synth`]: analytical elements for tests and the demo.

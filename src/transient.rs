@@ -38,6 +38,23 @@
 //! unknowns are scaled by the largest response `max |y|` so that `lambda` is
 //! dimensionless and comparable with the spectrum case. The tau grid spans
 //! the first bin's time to the last, extended as for spectra.
+//!
+//! # Example
+//! ```
+//! use taumap::io::transient::BinnedTransient;
+//! use taumap::transient::{StepKind, TransientParams, invert_transient};
+//!
+//! // 2 ohm + Voigt(10 ohm, 1 ms) under a 0.1 A step, 10 us sampling for 50 ms.
+//! let t: Vec<f64> = (1..=5000).map(|k| k as f64 * 1e-5).collect();
+//! let v: Vec<f64> = t.iter().map(|t| 0.1 * (2.0 + 10.0 * (1.0 - (-t / 1e-3).exp()))).collect();
+//! let record = BinnedTransient::from_samples(&t, &v, 25.0)?;
+//! let inv = invert_transient(&record, &TransientParams::new(StepKind::CurrentStep { current_a: 0.1 }))?;
+//! assert_eq!(inv.peaks.len(), 1);
+//! assert!((inv.peaks[0].tau_s.log10() + 3.0).abs() < 0.05);
+//! assert!((inv.total - 10.0).abs() < 0.1);
+//! assert!((inv.instantaneous.unwrap() - 2.0).abs() < 0.05);
+//! # Ok::<(), taumap::Error>(())
+//! ```
 
 use crate::grid::TauGrid;
 use crate::io::transient::{Bin, BinnedTransient, MIN_BINS};

@@ -124,6 +124,8 @@ fn galvanostatic_two_rc_network() {
 /// its current-step response (the Fuoss-Kirkwood distribution integrated,
 /// see synth) and its impedance spectrum must invert to the same peak and
 /// R_pol, and both to the analytical distribution (peak at tau0, area R).
+/// Over noise seeds 1-10 this passes 8 times; the other two show a 4-5 %
+/// side peak in the arc's tail (docs/transient-accuracy.md).
 #[test]
 fn zarc_transient_agrees_with_impedance_route_and_analytics() {
     let cell = cells::zarc();
