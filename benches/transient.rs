@@ -9,7 +9,7 @@ use criterion::{Criterion, criterion_group, criterion_main};
 use std::fmt::Write as _;
 use std::hint::black_box;
 use std::path::Path;
-use taumap::io::transient::{BinnedTransient, DEFAULT_BINS_PER_DECADE, Quantity, parse_transient};
+use taumap::io::transient::{BinOptions, BinnedTransient, Quantity, parse_transient};
 use taumap::kernel::{Basis, BasisKind, StepShape, step_kernel};
 use taumap::synth::{add_white_noise, cells};
 use taumap::transient::{StepKind, TransientParams, invert_transient};
@@ -27,22 +27,19 @@ fn benches(c: &mut Criterion) {
     let step = TransientParams::new(StepKind::CurrentStep { current_a: 1.0 });
     c.bench_function("transient/bin_and_invert_1e5_samples_auto", |b| {
         b.iter(|| {
-            let rec = BinnedTransient::from_samples(
-                black_box(&t),
-                black_box(&v),
-                DEFAULT_BINS_PER_DECADE,
-            )
-            .expect("bins");
+            let rec =
+                BinnedTransient::from_samples(black_box(&t), black_box(&v), &BinOptions::default())
+                    .expect("bins");
             invert_transient(&rec, &step).expect("inverts")
         })
     });
-    let rec = BinnedTransient::from_samples(&t, &v, DEFAULT_BINS_PER_DECADE).expect("bins");
+    let rec = BinnedTransient::from_samples(&t, &v, &BinOptions::default()).expect("bins");
     c.bench_function("transient/invert_binned_auto", |b| {
         b.iter(|| invert_transient(black_box(&rec), &step).expect("inverts"))
     });
     c.bench_function("transient/bin_1e5_samples", |b| {
         b.iter(|| {
-            BinnedTransient::from_samples(black_box(&t), black_box(&v), DEFAULT_BINS_PER_DECADE)
+            BinnedTransient::from_samples(black_box(&t), black_box(&v), &BinOptions::default())
         })
     });
     let mut text = String::from("time_s,voltage_v\n");
@@ -55,7 +52,7 @@ fn benches(c: &mut Criterion) {
                 black_box(text.as_bytes()),
                 Path::new("bench.csv"),
                 Quantity::Voltage,
-                DEFAULT_BINS_PER_DECADE,
+                &BinOptions::default(),
             )
             .expect("parses")
         })

@@ -6,7 +6,7 @@
 //! Prints a Markdown table. Seeds are fixed, so the table is reproducible;
 //! `LADDER_VERBOSE=1` lists the failures.
 
-use taumap::io::transient::{BinnedTransient, DEFAULT_BINS_PER_DECADE};
+use taumap::io::transient::{BinOptions, BinnedTransient};
 use taumap::lambda::{LambdaChoice, LambdaRule};
 use taumap::synth::{Element, Series, add_white_noise, cells, log_times};
 use taumap::transient::{StepKind, TransientParams, invert_transient};
@@ -137,7 +137,7 @@ fn main() {
                     for &seed in &seeds {
                         let mut v = clean.clone();
                         add_white_noise(&mut v, noise * span, seed);
-                        let rec = BinnedTransient::from_samples(&t, &v, DEFAULT_BINS_PER_DECADE)
+                        let rec = BinnedTransient::from_samples(&t, &v, &BinOptions::default())
                             .expect("valid record");
                         let mut p = TransientParams::new(case.step);
                         p.drt.lambda = LambdaChoice::Rule(rule);

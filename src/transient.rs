@@ -41,13 +41,13 @@
 //!
 //! # Example
 //! ```
-//! use taumap::io::transient::BinnedTransient;
+//! use taumap::io::transient::{BinOptions, BinnedTransient};
 //! use taumap::transient::{StepKind, TransientParams, invert_transient};
 //!
 //! // 2 ohm + Voigt(10 ohm, 1 ms) under a 0.1 A step, 10 us sampling for 50 ms.
 //! let t: Vec<f64> = (1..=5000).map(|k| k as f64 * 1e-5).collect();
 //! let v: Vec<f64> = t.iter().map(|t| 0.1 * (2.0 + 10.0 * (1.0 - (-t / 1e-3).exp()))).collect();
-//! let record = BinnedTransient::from_samples(&t, &v, 25.0)?;
+//! let record = BinnedTransient::from_samples(&t, &v, &BinOptions::default())?;
 //! let inv = invert_transient(&record, &TransientParams::new(StepKind::CurrentStep { current_a: 0.1 }))?;
 //! assert_eq!(inv.peaks.len(), 1);
 //! assert!((inv.peaks[0].tau_s.log10() + 3.0).abs() < 0.05);
@@ -279,6 +279,9 @@ pub struct TransientInversion {
     pub curves: Option<LambdaCurves>,
     /// Solver diagnostics.
     pub info: TransientSolveInfo,
+    /// Doubts about the input worth showing the user (e.g. a response moving
+    /// against the step's sign); empty when none.
+    pub warnings: Vec<String>,
 }
 
 /// The assembled, scaled problem for one transient.
@@ -297,6 +300,7 @@ struct Design {
     baseline: Option<f64>,
     baseline_source: BaselineSource,
     t_max: f64,
+    warnings: Vec<String>,
 }
 
 fn build(record: &BinnedTransient, p: &TransientParams) -> Result<Design> {
@@ -332,6 +336,7 @@ fn build(record: &BinnedTransient, p: &TransientParams) -> Result<Design> {
         0.0
     };
     let d: Vec<f64> = y.iter().map(|v| v - y_ref).collect();
+    let warnings = direction_warning(p.step, &y).into_iter().collect();
     let y_scale = d.iter().fold(0.0f64, |a, v| a.max(v.abs()));
     if !(y_scale > 0.0 && y_scale.is_finite()) {
         return Err(Error::Config(
@@ -340,8 +345,15 @@ fn build(record: &BinnedTransient, p: &TransientParams) -> Result<Design> {
     }
     let t: Vec<f64> = bins.iter().map(|b| b.time_s).collect();
     let var: Vec<f64> = bins.iter().map(|b| b.time_var_s2).collect();
-    let (t_first, t_max) = (t[0], t[m - 1]);
-    let grid = p.drt.grid(t_first, t_max)?;
+    let t_max = t[m - 1];
+    // The band the record resolves: first fitted sample to record length.
+    let (band_lo, band_hi) =
+        if record.first_time_s > 0.0 && record.last_time_s > record.first_time_s {
+            (record.first_time_s, record.last_time_s)
+        } else {
+            (t[0], t_max)
+        };
+    let grid = p.drt.grid(band_lo, band_hi)?;
     let basis = Basis::new(p.drt.basis, &grid);
     let gram = basis.gram(p.drt.penalty_order)?;
     let kernel = step_kernel(&basis, p.step.shape(), &t, &var);
@@ -377,7 +389,7 @@ fn build(record: &BinnedTransient, p: &TransientParams) -> Result<Design> {
     let problem = with_extension_prior(
         Tikhonov::new(a, b, penalty),
         &basis,
-        (t_first.ln(), t_max.ln()),
+        (band_lo.ln(), band_hi.ln()),
         p.drt.extension_prior,
     );
     Ok(Design {
@@ -392,6 +404,45 @@ fn build(record: &BinnedTransient, p: &TransientParams) -> Result<Design> {
         baseline,
         baseline_source,
         t_max,
+        warnings,
+    })
+}
+
+/// A passive cell's response moves one way: `y = response / amplitude`
+/// rises after a current step and falls during a relaxation or after a
+/// voltage step (every kernel column is monotone that way). A clear move the
+/// other way (the mean of the last three bins beyond the first three by more
+/// than a quarter of the response's range) almost always means the sign of
+/// the amplitude is wrong.
+fn direction_warning(step: StepKind, y: &[f64]) -> Option<String> {
+    let k = 3.min(y.len());
+    let mean = |s: &[f64]| s.iter().sum::<f64>() / s.len() as f64;
+    let change = mean(&y[y.len() - k..]) - mean(&y[..k]);
+    let (lo, hi) = y
+        .iter()
+        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), v| {
+            (a.min(*v), b.max(*v))
+        });
+    let against = match step {
+        StepKind::CurrentStep { .. } => -change,
+        _ => change,
+    };
+    if against <= 0.25 * (hi - lo) {
+        return None;
+    }
+    Some(match step {
+        StepKind::CurrentStep { current_a } => format!(
+            "the voltage moves against the current step of {current_a} A (a passive cell's voltage \
+             follows the current: up for a positive step into the positive terminal); check the sign"
+        ),
+        StepKind::Relaxation { current_a } => format!(
+            "the voltage moves the way the interrupted current of {current_a} A would drive it, \
+             not back towards rest; check the sign of the current"
+        ),
+        StepKind::VoltageStep { voltage_v } => format!(
+            "the current grows in the direction of the voltage step of {voltage_v} V instead of \
+             decaying; check the sign of the step"
+        ),
     })
 }
 
@@ -490,5 +541,6 @@ pub fn invert_transient(
             dof: reg.dof,
         },
         curves: reg.curves,
+        warnings: d.warnings,
     })
 }

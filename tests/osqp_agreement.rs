@@ -4,7 +4,7 @@
 
 use nalgebra::DVector;
 use taumap::invert::{InvertParams, problem};
-use taumap::io::transient::BinnedTransient;
+use taumap::io::transient::{BinOptions, BinnedTransient};
 use taumap::osqp_backend::{OsqpOptions, solve_nonneg_qp};
 use taumap::solve::Tikhonov;
 use taumap::synth::{Element, Series, add_white_noise, cells, log_times, reference_spectrum};
@@ -104,7 +104,7 @@ fn native_and_osqp_agree_on_transients() {
         ("relaxation", relax, StepKind::Relaxation { current_a: 1.0 }),
         ("voltage step", rc, StepKind::VoltageStep { voltage_v: 1.0 }),
     ] {
-        let rec = BinnedTransient::from_samples(&t, &values, 25.0).unwrap();
+        let rec = BinnedTransient::from_samples(&t, &values, &BinOptions::default()).unwrap();
         let problem = transient_problem(&rec, &TransientParams::new(kind)).unwrap();
         check_agreement(&problem, label);
     }

@@ -7,7 +7,7 @@
 use std::io::Read;
 use std::path::Path;
 use taumap::invert::{InvertParams, invert};
-use taumap::io::transient::{BinnedTransient, DEFAULT_BINS_PER_DECADE, Quantity, parse_transient};
+use taumap::io::transient::{BinOptions, BinnedTransient, Quantity, parse_transient};
 use taumap::synth::{Element, Series, add_white_noise, cells, log_times, reference_spectrum};
 use taumap::transient::{
     BaselineSource, DistributionUnit, StepKind, TransientInversion, TransientParams,
@@ -23,7 +23,7 @@ fn uniform_times(dt_s: f64, n: usize) -> Vec<f64> {
 }
 
 fn run(t: &[f64], v: &[f64], step: StepKind) -> TransientInversion {
-    let rec = BinnedTransient::from_samples(t, v, DEFAULT_BINS_PER_DECADE).unwrap();
+    let rec = BinnedTransient::from_samples(t, v, &BinOptions::default()).unwrap();
     invert_transient(&rec, &TransientParams::new(step)).unwrap()
 }
 
@@ -241,7 +241,13 @@ fn million_sample_record_streams_into_bounded_bins() {
         buf: Vec::new(),
         pos: 0,
     });
-    let rec = parse_transient(reader, Path::new("logger.csv"), Quantity::Voltage, 25.0).unwrap();
+    let rec = parse_transient(
+        reader,
+        Path::new("logger.csv"),
+        Quantity::Voltage,
+        &BinOptions::default(),
+    )
+    .unwrap();
     assert_eq!(rec.response_samples, 1_000_000);
     // 1e-6 .. 1 s is 6 decades: at most 25 * 6 + 1 bins.
     assert!(rec.bins.len() <= 151, "{} bins", rec.bins.len());
@@ -256,4 +262,99 @@ fn million_sample_record_streams_into_bounded_bins() {
     assert!(decades(inv.peaks[0].tau_s, 5e-3) < 0.05);
     assert!((inv.total / 0.2 - 1.0).abs() < 0.01, "{}", inv.total);
     assert!((inv.instantaneous.unwrap() / 0.1 - 1.0).abs() < 0.01);
+}
+
+/// A blocking electrode: 1 ohm + Voigt(2 ohm, 1 ms) + C = 0.5 F in series
+/// under a current step, v/I = R0 + R1 (1 - e^-t/tau) + t/C (textbook
+/// series network), fitted with the series-capacitance column.
+#[test]
+fn series_capacitance_of_a_blocking_electrode() {
+    let cell = Series(vec![
+        Element::Resistor { r_ohm: 1.0 },
+        Element::Voigt {
+            r_ohm: 2.0,
+            tau_s: 1e-3,
+        },
+        Element::Capacitor { c_f: 0.5 },
+    ]);
+    let t = uniform_times(1e-5, 100_000);
+    let mut v: Vec<f64> = t.iter().map(|&t| 0.1 * cell.current_step_ohm(t)).collect();
+    add_white_noise(&mut v, 1e-4, 4);
+    let rec = BinnedTransient::from_samples(&t, &v, &BinOptions::default()).unwrap();
+    let mut p = TransientParams::new(StepKind::CurrentStep { current_a: 0.1 });
+    p.series_capacitance = true;
+    let inv = invert_transient(&rec, &p).unwrap();
+    let c = inv.series_capacitance_f.unwrap();
+    assert!((c / 0.5 - 1.0).abs() < 0.02, "C {c}");
+    assert_eq!(inv.peaks.len(), 1, "{:?}", inv.peaks);
+    assert!(decades(inv.peaks[0].tau_s, 1e-3) < 0.05);
+    assert!((inv.total / 2.0 - 1.0).abs() < 0.03, "{}", inv.total);
+    assert!((inv.instantaneous.unwrap() - 1.0).abs() < 0.03);
+    // Without the column the ramp cannot be explained: the fit is far worse.
+    let plain = invert_transient(&rec, &TransientParams::new(p.step)).unwrap();
+    assert!(plain.residual_rms_rel > 10.0 * inv.residual_rms_rel);
+}
+
+/// `fit_start_s` drops the first samples (here a ringing artefact that no
+/// passive network produces) and the tau band starts at the first sample kept.
+#[test]
+fn fit_start_skips_early_samples() {
+    let t = uniform_times(1e-6, 20_000);
+    let v: Vec<f64> = t
+        .iter()
+        .map(|&t| {
+            let ring = if t < 5e-5 { 0.5 * (t * 2e5).sin() } else { 0.0 };
+            0.5 + 1.0 - (-t / 2e-3).exp() + ring
+        })
+        .collect();
+    let opts = BinOptions {
+        fit_start_s: 4.95e-5,
+        ..BinOptions::default()
+    };
+    let rec = BinnedTransient::from_samples(&t, &v, &opts).unwrap();
+    assert_eq!(rec.early_samples, 49);
+    assert!((rec.first_time_s - 5e-5).abs() < 1e-12);
+    assert!((rec.last_time_s - 2e-2).abs() < 1e-12);
+    let inv = invert_transient(
+        &rec,
+        &TransientParams::new(StepKind::CurrentStep { current_a: 1.0 }),
+    )
+    .unwrap();
+    assert_eq!(inv.peaks.len(), 1, "{:?}", inv.peaks);
+    assert!(decades(inv.peaks[0].tau_s, 2e-3) < 0.05);
+    // Processes faster than the first sample kept look like series
+    // resistance; only the sum R_inf + R_pol is fixed by the data there.
+    let sum = inv.total + inv.instantaneous.unwrap();
+    assert!((sum / 1.5 - 1.0).abs() < 0.005, "sum {sum}");
+    assert!((inv.total - 1.0).abs() < 0.05, "{}", inv.total);
+    // Grid: one decade below the first sample kept, one above the record length.
+    let g = inv.grid.tau_s();
+    assert!((g[0] / 5e-6 - 1.0).abs() < 1e-9, "{}", g[0]);
+    assert!((g[g.len() - 1] / 0.2 - 1.0).abs() < 1e-9);
+    assert!(inv.warnings.is_empty());
+}
+
+/// A discharge step given as positive: the voltage falls although the model
+/// says it must rise, and the inversion says so.
+#[test]
+fn wrong_sign_is_flagged() {
+    let t = uniform_times(1e-5, 5000);
+    let v: Vec<f64> = t
+        .iter()
+        .map(|&t| 3.7 - 0.2 * (0.01 + 0.02 * (1.0 - (-t / 1e-3).exp())))
+        .collect();
+    let rec = BinnedTransient::from_samples(&t, &v, &BinOptions::default()).unwrap();
+    let mut p = TransientParams::new(StepKind::CurrentStep { current_a: 0.2 });
+    p.baseline = Some(3.7);
+    let inv = invert_transient(&rec, &p).unwrap();
+    assert_eq!(inv.warnings.len(), 1);
+    assert!(
+        inv.warnings[0].contains("check the sign"),
+        "{:?}",
+        inv.warnings
+    );
+    p.step = StepKind::CurrentStep { current_a: -0.2 };
+    let inv = invert_transient(&rec, &p).unwrap();
+    assert!(inv.warnings.is_empty(), "{:?}", inv.warnings);
+    assert!((inv.total / 0.02 - 1.0).abs() < 0.02);
 }

@@ -139,6 +139,9 @@ pub struct TransientArgs {
     /// Time bins per decade for the reduction of long records.
     #[arg(long, value_name = "N", default_value_t = 25.0)]
     pub bins_per_decade: f64,
+    /// Skip samples before S seconds after the step (settling, lead ringing).
+    #[arg(long, value_name = "S", default_value_t = 0.0)]
+    pub fit_start: f64,
     /// Shared solver options.
     #[command(flatten)]
     pub solve: SolveArgs,

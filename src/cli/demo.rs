@@ -16,7 +16,7 @@ use super::transient::{self, transient_into};
 use anyhow::Result;
 use std::fmt::Write as _;
 use taumap::invert::{DrtOptions, InvertParams};
-use taumap::io::transient::{DEFAULT_BINS_PER_DECADE, Quantity, read_transient};
+use taumap::io::transient::{BinOptions, Quantity, read_transient};
 use taumap::io::write::write_atomic;
 use taumap::io::{Spectrum, read_spectrum};
 use taumap::report::num;
@@ -147,20 +147,15 @@ pub fn run(a: &DemoArgs) -> Result<()> {
     let pulse_path = a.dir.join(PULSE_FILE);
     let (t, v) = demo_pulse();
     write_atomic(&pulse_path, pulse_csv(&t, &v).as_bytes())?;
-    let record = read_transient(&pulse_path, Quantity::Voltage, DEFAULT_BINS_PER_DECADE)?;
+    let bins = BinOptions::default();
+    let record = read_transient(&pulse_path, Quantity::Voltage, &bins)?;
     let mut tparams = TransientParams::new(StepKind::CurrentStep {
         current_a: PULSE_CURRENT_A,
     });
     tparams.drt.all_curves = true;
     let pulse_out = default_out_dir(&pulse_path);
-    let (tsummary, twritten) = transient_into(
-        &pulse_path,
-        &record,
-        DEFAULT_BINS_PER_DECADE,
-        &tparams,
-        &pulse_out,
-        true,
-    )?;
+    let (tsummary, twritten) =
+        transient_into(&pulse_path, &record, &bins, &tparams, &pulse_out, true)?;
     println!();
     println!("demo pulse test: {}", pulse_path.display());
     transient::report_run(&tsummary, &pulse_out, &twritten, false)?;

@@ -5,7 +5,7 @@ use super::invert::{default_out_dir, drt_options_from, lambda_figure};
 use anyhow::Result;
 use std::io::Write;
 use std::path::{Path, PathBuf};
-use taumap::io::transient::{BinnedTransient, Quantity, read_transient};
+use taumap::io::transient::{BinOptions, BinnedTransient, Quantity, read_transient};
 use taumap::io::write::OutputSet;
 use taumap::plot::{self, ImageFormat};
 use taumap::report::transient::{self as report, Quantities, TransientSummary};
@@ -37,16 +37,14 @@ pub fn run(a: &TransientArgs) -> Result<()> {
         StepKind::VoltageStep { .. } => Quantity::Current,
         _ => Quantity::Voltage,
     };
-    let record = read_transient(&a.input, quantity, a.bins_per_decade)?;
+    let bins = BinOptions {
+        bins_per_decade: a.bins_per_decade,
+        fit_start_s: a.fit_start,
+    };
+    let record = read_transient(&a.input, quantity, &bins)?;
     let out = a.out.clone().unwrap_or_else(|| default_out_dir(&a.input));
-    let (summary, written) = transient_into(
-        &a.input,
-        &record,
-        a.bins_per_decade,
-        &params,
-        &out,
-        !a.solve.no_plots,
-    )?;
+    let (summary, written) =
+        transient_into(&a.input, &record, &bins, &params, &out, !a.solve.no_plots)?;
     report_run(&summary, &out, &written, a.solve.json)
 }
 
@@ -55,19 +53,16 @@ pub fn run(a: &TransientArgs) -> Result<()> {
 pub fn transient_into(
     input: &Path,
     record: &BinnedTransient,
-    bins_per_decade: f64,
+    bins: &BinOptions,
     params: &TransientParams,
     out: &Path,
     plots: bool,
 ) -> Result<(TransientSummary, Vec<PathBuf>)> {
     let inv = invert_transient(record, params)?;
-    let summary = TransientSummary::new(
-        &input.display().to_string(),
-        record,
-        bins_per_decade,
-        params,
-        &inv,
-    );
+    for w in &inv.warnings {
+        eprintln!("warning: {}: {w}", input.display());
+    }
+    let summary = TransientSummary::new(&input.display().to_string(), record, bins, params, &inv);
     let mut set = OutputSet::new(out);
     set.add("drt.csv", report::drt_csv(&inv))?;
     set.add("fit.csv", report::fit_csv(&inv))?;

@@ -90,6 +90,25 @@ const CURRENT_UNITS: &[(&str, f64)] = &[
 /// Default number of time bins per decade.
 pub const DEFAULT_BINS_PER_DECADE: f64 = 25.0;
 
+/// How the response is reduced before the fit.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct BinOptions {
+    /// Time bins per decade ([`DEFAULT_BINS_PER_DECADE`]).
+    pub bins_per_decade: f64,
+    /// Samples at `0 < t < fit_start_s` are skipped (instrument settling,
+    /// ringing of the leads right after the step); 0 keeps them all.
+    pub fit_start_s: f64,
+}
+
+impl Default for BinOptions {
+    fn default() -> Self {
+        Self {
+            bins_per_decade: DEFAULT_BINS_PER_DECADE,
+            fit_start_s: 0.0,
+        }
+    }
+}
+
 /// Minimum number of response bins a transient must give.
 pub const MIN_BINS: usize = 8;
 
@@ -225,12 +244,18 @@ pub struct BinnedTransient {
     pub response_samples: usize,
     /// Number of samples at exactly `t = 0` (skipped).
     pub at_step_samples: usize,
+    /// Number of samples at `0 < t < fit_start_s` (skipped).
+    pub early_samples: usize,
+    /// Time of the first response sample fitted (s).
+    pub first_time_s: f64,
+    /// Time of the last sample, the record length (s).
+    pub last_time_s: f64,
 }
 
 impl BinnedTransient {
     /// Bins samples given in memory (times ascending, any sign), as the file
     /// reader does.
-    pub fn from_samples(time_s: &[f64], value: &[f64], bins_per_decade: f64) -> Result<Self> {
+    pub fn from_samples(time_s: &[f64], value: &[f64], opts: &BinOptions) -> Result<Self> {
         if time_s.len() != value.len() {
             return Err(Error::Data(format!(
                 "{} times but {} values",
@@ -238,7 +263,7 @@ impl BinnedTransient {
                 value.len()
             )));
         }
-        let mut acc = Accumulator::new(bins_per_decade)?;
+        let mut acc = Accumulator::new(opts)?;
         for (&t, &v) in time_s.iter().zip(value) {
             acc.push(t, v)?;
         }
@@ -249,19 +274,32 @@ impl BinnedTransient {
 /// Splits samples into pre-step baseline, step instant and binned response.
 struct Accumulator {
     binner: LogBinner,
+    fit_start_s: f64,
     pre_sum: f64,
     pre_n: usize,
     at_step: usize,
+    early: usize,
+    first_t: f64,
     last_t: f64,
 }
 
 impl Accumulator {
-    fn new(bins_per_decade: f64) -> Result<Self> {
+    fn new(opts: &BinOptions) -> Result<Self> {
+        if !(opts.fit_start_s.is_finite() && opts.fit_start_s >= 0.0) {
+            return Err(Error::Param {
+                name: "fit-start",
+                expected: "a time in seconds >= 0",
+                value: opts.fit_start_s,
+            });
+        }
         Ok(Self {
-            binner: LogBinner::new(bins_per_decade)?,
+            binner: LogBinner::new(opts.bins_per_decade)?,
+            fit_start_s: opts.fit_start_s,
             pre_sum: 0.0,
             pre_n: 0,
             at_step: 0,
+            early: 0,
+            first_t: f64::NAN,
             last_t: f64::NEG_INFINITY,
         })
     }
@@ -281,7 +319,13 @@ impl Accumulator {
         } else if t == 0.0 {
             self.at_step += 1;
             Ok(())
+        } else if t < self.fit_start_s {
+            self.early += 1;
+            Ok(())
         } else {
+            if self.first_t.is_nan() {
+                self.first_t = t;
+            }
             self.binner.push(t, v)
         }
     }
@@ -294,6 +338,9 @@ impl Accumulator {
             pre_step_samples: self.pre_n,
             response_samples,
             at_step_samples: self.at_step,
+            early_samples: self.early,
+            first_time_s: self.first_t,
+            last_time_s: self.last_t,
         }
     }
 }
@@ -302,13 +349,13 @@ impl Accumulator {
 pub fn read_transient(
     path: &Path,
     quantity: Quantity,
-    bins_per_decade: f64,
+    opts: &BinOptions,
 ) -> Result<BinnedTransient> {
     let file = File::open(path).map_err(|source| Error::Io {
         path: path.to_path_buf(),
         source,
     })?;
-    parse_transient(BufReader::new(file), path, quantity, bins_per_decade)
+    parse_transient(BufReader::new(file), path, quantity, opts)
 }
 
 /// Streams a transient from `reader` into bins; `path` only labels errors.
@@ -321,7 +368,7 @@ pub fn parse_transient<R: BufRead>(
     reader: R,
     path: &Path,
     quantity: Quantity,
-    bins_per_decade: f64,
+    opts: &BinOptions,
 ) -> Result<BinnedTransient> {
     let example = quantity.canonical_header();
     let mut table = TableReader::new(reader, path, example)?;
@@ -392,7 +439,7 @@ pub fn parse_transient<R: BufRead>(
         cols[k] = col;
     }
 
-    let mut acc = Accumulator::new(bins_per_decade)?;
+    let mut acc = Accumulator::new(opts)?;
     let mut prev: Option<(f64, usize)> = None;
     while let Some(row) = table.next_row()? {
         let t = table.number(&row, cols[0])? * scale[0];
@@ -419,8 +466,9 @@ pub fn parse_transient<R: BufRead>(
         return Err(table.error(
             table.header_line,
             format!(
-                "need samples after the step (t > 0) spread over at least {MIN_BINS} time bins, \
+                "need samples after the step (t > {} s) spread over at least {MIN_BINS} time bins, \
                  found {} sample(s) in {} bin(s)",
+                opts.fit_start_s,
                 binned.response_samples,
                 binned.bins.len()
             ),
@@ -434,7 +482,11 @@ mod tests {
     use super::*;
 
     fn parse(text: &str, q: Quantity) -> Result<BinnedTransient> {
-        parse_transient(text.as_bytes(), Path::new("pulse.csv"), q, 10.0)
+        let opts = BinOptions {
+            bins_per_decade: 10.0,
+            ..BinOptions::default()
+        };
+        parse_transient(text.as_bytes(), Path::new("pulse.csv"), q, &opts)
     }
 
     fn err(text: &str, q: Quantity) -> String {
@@ -492,7 +544,7 @@ mod tests {
     fn long_record_reduces_to_log_bins() {
         let t: Vec<f64> = (1..=100_000).map(|k| k as f64 * 1e-5).collect();
         let v: Vec<f64> = t.iter().map(|t| (-t / 0.01f64).exp()).collect();
-        let b = BinnedTransient::from_samples(&t, &v, 25.0).unwrap();
+        let b = BinnedTransient::from_samples(&t, &v, &BinOptions::default()).unwrap();
         // 5 decades (1e-5..1 s) at 25 per decade, +1 for the edge bin.
         assert!(b.bins.len() <= 126, "{}", b.bins.len());
         assert!(b.bins.len() >= 100, "{}", b.bins.len());
@@ -526,7 +578,7 @@ mod tests {
                 "time_s,voltage_v\n-1,3\n1e-3,1\n2e-3,1\n",
                 Quantity::Voltage
             ),
-            "pulse.csv:1: need samples after the step (t > 0) spread over at least 8 time bins, found 2 sample(s) in 2 bin(s)"
+            "pulse.csv:1: need samples after the step (t > 0 s) spread over at least 8 time bins, found 2 sample(s) in 2 bin(s)"
         );
         assert_eq!(
             err("t,v,voltage\n1,2,3\n", Quantity::Voltage),

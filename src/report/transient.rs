@@ -13,7 +13,7 @@
 //! - `summary.json`: see [`TransientSummary`]
 
 use super::{DrtSettings, RuleChoice, candidates, num, rule_label};
-use crate::io::transient::BinnedTransient;
+use crate::io::transient::{BinOptions, BinnedTransient};
 use crate::solve::SolveStatus;
 use crate::transient::{
     BaselineSource, DistributionUnit, StepKind, TransientInversion, TransientParams,
@@ -122,6 +122,8 @@ pub struct TransientSettings {
     pub drt: DrtSettings,
     /// Time bins per decade of the reduction.
     pub bins_per_decade: f64,
+    /// Samples before this time after the step were skipped (s).
+    pub fit_start_s: f64,
     /// Whether a series capacitance was modelled.
     pub series_capacitance_modelled: bool,
 }
@@ -141,6 +143,8 @@ pub struct TransientSummary {
     pub n_bins: usize,
     /// Samples before the step (t < 0).
     pub n_pre_step: usize,
+    /// Samples after the step skipped before `fit_start_s`.
+    pub n_skipped_early: usize,
     /// Pre-step value used (V or A), or null.
     pub baseline: Option<f64>,
     /// Where the baseline came from.
@@ -160,6 +164,8 @@ pub struct TransientSummary {
     pub residual_rms_rel: f64,
     /// Whether the solver met its optimality conditions.
     pub solver_status: SolveStatus,
+    /// Doubts about the input (e.g. a sign that looks wrong); empty when none.
+    pub warnings: Vec<String>,
     /// Settings used.
     pub settings: TransientSettings,
 }
@@ -169,7 +175,7 @@ impl TransientSummary {
     pub fn new(
         input: &str,
         record: &BinnedTransient,
-        bins_per_decade: f64,
+        bins: &BinOptions,
         params: &TransientParams,
         inv: &TransientInversion,
     ) -> Self {
@@ -210,6 +216,7 @@ impl TransientSummary {
             n_samples: record.response_samples,
             n_bins: record.bins.len(),
             n_pre_step: record.pre_step_samples,
+            n_skipped_early: record.early_samples,
             baseline: inv.baseline,
             baseline_source: inv.baseline_source,
             quantities,
@@ -219,9 +226,11 @@ impl TransientSummary {
             lambda_candidates: candidates(inv.curves.as_ref()),
             residual_rms_rel: inv.residual_rms_rel,
             solver_status: inv.info.status,
+            warnings: inv.warnings.clone(),
             settings: TransientSettings {
                 drt: DrtSettings::new(&params.drt, &inv.grid),
-                bins_per_decade,
+                bins_per_decade: bins.bins_per_decade,
+                fit_start_s: bins.fit_start_s,
                 series_capacitance_modelled: params.series_capacitance,
             },
         }

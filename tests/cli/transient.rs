@@ -289,3 +289,53 @@ fn bad_input_is_reported_with_file_and_line() {
         "bins-per-decade",
     );
 }
+
+#[test]
+fn wrong_sign_warns_and_fit_start_is_recorded() {
+    let dir = tempdir();
+    // A 0.2 A discharge of 10 mohm + Voigt(20 mohm, 1 ms) from rest at 3.7 V.
+    let mut s = String::from("time_s,voltage_v\n-1e-3,3.7\n");
+    for k in 1..=5000 {
+        let t = k as f64 * 1e-5;
+        let v = 3.7 - 0.2 * (0.01 + 0.02 * (1.0 - (-t / 1e-3).exp()));
+        let _ = writeln!(s, "{t},{v}");
+    }
+    std::fs::write(dir.path().join("dis.csv"), s).unwrap();
+    let run = taumap(
+        dir.path(),
+        &[
+            "transient",
+            "dis.csv",
+            "--current-step-a",
+            "0.2",
+            "--json",
+            "--no-plots",
+        ],
+    );
+    assert_eq!(run.code, 0, "{}", run.explain());
+    assert!(
+        run.stderr
+            .starts_with("warning: dis.csv: the voltage moves against"),
+        "{}",
+        run.explain()
+    );
+    assert_eq!(json(&run)["warnings"].as_array().unwrap().len(), 1);
+    let run = taumap(
+        dir.path(),
+        &[
+            "transient",
+            "dis.csv",
+            "--current-step-a=-0.2",
+            "--fit-start",
+            "1e-4",
+            "--json",
+            "--no-plots",
+        ],
+    );
+    assert_eq!(run.code, 0, "{}", run.explain());
+    assert!(run.stderr.is_empty(), "{}", run.explain());
+    let j = json(&run);
+    assert_eq!(j["n_skipped_early"], 9);
+    assert_eq!(j["settings"]["fit_start_s"], 1e-4);
+    assert!((j["r_pol_ohm"].as_f64().unwrap() / 0.02 - 1.0).abs() < 0.03);
+}
