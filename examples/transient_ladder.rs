@@ -20,20 +20,6 @@ struct Case {
     peaks: Vec<(f64, f64)>,
 }
 
-fn two_voigts() -> Series {
-    Series(vec![
-        Element::Resistor { r_ohm: 0.010 },
-        Element::Voigt {
-            r_ohm: 0.020,
-            tau_s: 1e-3,
-        },
-        Element::Voigt {
-            r_ohm: 0.030,
-            tau_s: 1e-2,
-        },
-    ])
-}
-
 fn ladder() -> Vec<Case> {
     let current = StepKind::CurrentStep { current_a: 1.0 };
     vec![
@@ -45,13 +31,13 @@ fn ladder() -> Vec<Case> {
         },
         Case {
             name: "2 Voigt 1 decade, current step",
-            cell: two_voigts(),
+            cell: cells::two_voigts(),
             step: current,
             peaks: vec![(1e-3, 0.020), (1e-2, 0.030)],
         },
         Case {
             name: "2 Voigt 1 decade, relaxation",
-            cell: two_voigts(),
+            cell: cells::two_voigts(),
             step: StepKind::Relaxation { current_a: 1.0 },
             peaks: vec![(1e-3, 0.020), (1e-2, 0.030)],
         },

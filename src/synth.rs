@@ -347,6 +347,22 @@ pub mod cells {
         ])
     }
 
+    /// 10 mohm + Voigt(20 mohm, 1 ms) + Voigt(30 mohm, 10 ms): two lines one
+    /// decade apart, the RC model of a small lithium-ion cell under a pulse.
+    pub fn two_voigts() -> Series {
+        Series(vec![
+            Element::Resistor { r_ohm: 0.010 },
+            Element::Voigt {
+                r_ohm: 0.020,
+                tau_s: 1e-3,
+            },
+            Element::Voigt {
+                r_ohm: 0.030,
+                tau_s: 1e-2,
+            },
+        ])
+    }
+
     /// 5 ohm + finite-length Warburg element (20 ohm, 1 s).
     pub fn finite_warburg() -> Series {
         Series(vec![

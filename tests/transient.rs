@@ -78,17 +78,7 @@ fn series_rc_voltage_step_gives_one_line_of_weight_one_over_r() {
 /// relation). Magnitudes: a small lithium-ion cell (common practice).
 #[test]
 fn galvanostatic_two_rc_network() {
-    let cell = Series(vec![
-        Element::Resistor { r_ohm: 0.010 },
-        Element::Voigt {
-            r_ohm: 0.020,
-            tau_s: 1e-3,
-        },
-        Element::Voigt {
-            r_ohm: 0.030,
-            tau_s: 1e-2,
-        },
-    ]);
+    let cell = cells::two_voigts();
     let (i_a, v0) = (2.0, 3.6);
     // 100 kHz for 0.5 s, 100 pre-step samples at rest.
     let mut t: Vec<f64> = (1..=100).rev().map(|k| -(k as f64) * 1e-5).collect();

@@ -29,9 +29,9 @@ use crate::error::{Error, Result};
 /// The delimiters recognised in a header line, in tie-breaking order.
 pub const DELIMITERS: [char; 3] = [',', ';', '\t'];
 
-/// A delimited text table: a header and the data rows below it.
+/// The file and header of a table: what every check of its rows needs.
 #[derive(Debug, Clone, PartialEq, Eq)]
-pub struct Table {
+pub struct TableHead {
     /// The file the table was read from (used in error messages only).
     pub path: PathBuf,
     /// The delimiter detected from the header line.
@@ -42,8 +42,23 @@ pub struct Table {
     pub header_text: String,
     /// 1-based physical line number of the header.
     pub header_line: usize,
+}
+
+/// A delimited text table: a header and the data rows below it.
+/// Dereferences to its [`TableHead`].
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct Table {
+    /// File and header.
+    pub head: TableHead,
     /// Data rows in file order; each has `header.len()` fields.
     pub rows: Vec<Row>,
+}
+
+impl std::ops::Deref for Table {
+    type Target = TableHead;
+    fn deref(&self) -> &TableHead {
+        &self.head
+    }
 }
 
 /// One data row of a [`Table`].
@@ -70,11 +85,7 @@ pub fn read_table<R: BufRead>(reader: R, path: &Path, example_header: &str) -> R
         rows.push(row);
     }
     Ok(Table {
-        path: stream.path,
-        delimiter: stream.delimiter,
-        header: stream.header,
-        header_text: stream.header_text,
-        header_line: stream.header_line,
+        head: stream.head,
         rows,
     })
 }
@@ -82,20 +93,20 @@ pub fn read_table<R: BufRead>(reader: R, path: &Path, example_header: &str) -> R
 /// A delimited table read one row at a time, in memory bounded by the
 /// longest line: for records too long to hold as text (a data logger's
 /// million samples). Same layout and errors as [`read_table`].
+/// Dereferences to its [`TableHead`].
 #[derive(Debug)]
 pub struct TableReader<R: BufRead> {
     reader: R,
-    /// The file being read (used in error messages only).
-    pub path: PathBuf,
-    /// The delimiter detected from the header line.
-    pub delimiter: char,
-    /// Column names as written (trimmed, quotes removed), one per field.
-    pub header: Vec<String>,
-    /// The header line as written, trimmed, for quoting in messages.
-    pub header_text: String,
-    /// 1-based physical line number of the header.
-    pub header_line: usize,
+    /// File and header.
+    pub head: TableHead,
     lines: LineSource,
+}
+
+impl<R: BufRead> std::ops::Deref for TableReader<R> {
+    type Target = TableHead;
+    fn deref(&self) -> &TableHead {
+        &self.head
+    }
 }
 
 /// Physical lines pulled from a reader, numbered from 1: ends `\n`, `\r\n`
@@ -205,11 +216,13 @@ impl<R: BufRead> TableReader<R> {
             })?;
             return Ok(Self {
                 reader,
-                path: path.to_path_buf(),
-                delimiter,
-                header,
-                header_text: trimmed.to_string(),
-                header_line: line_no,
+                head: TableHead {
+                    path: path.to_path_buf(),
+                    delimiter,
+                    header,
+                    header_text: trimmed.to_string(),
+                    header_line: line_no,
+                },
                 lines,
             });
         }
@@ -218,29 +231,25 @@ impl<R: BufRead> TableReader<R> {
     /// The next data row, skipping comments, blank lines and lines of
     /// delimiters only; `None` at the end of the file.
     pub fn next_row(&mut self) -> Result<Option<Row>> {
-        while let Some((line_no, text)) = self.lines.next(&mut self.reader, &self.path)? {
+        while let Some((line_no, text)) = self.lines.next(&mut self.reader, &self.head.path)? {
             let trimmed = text.trim();
             if trimmed.is_empty() || trimmed.starts_with('#') {
                 continue;
             }
-            let fields = split_fields(&text, self.delimiter).map_err(|msg| Error::Parse {
-                path: self.path.clone(),
-                line: line_no,
-                msg,
-            })?;
+            let fields = split_fields(&text, self.head.delimiter)
+                .map_err(|msg| self.head.error(line_no, msg))?;
             if fields.iter().all(String::is_empty) {
                 continue;
             }
-            if fields.len() != self.header.len() {
-                return Err(Error::Parse {
-                    path: self.path.clone(),
-                    line: line_no,
-                    msg: format!(
+            if fields.len() != self.head.header.len() {
+                return Err(self.head.error(
+                    line_no,
+                    format!(
                         "expected {} fields, found {}",
-                        self.header.len(),
+                        self.head.header.len(),
                         fields.len()
                     ),
-                });
+                ));
             }
             return Ok(Some(Row {
                 line: line_no,
@@ -249,39 +258,6 @@ impl<R: BufRead> TableReader<R> {
         }
         Ok(None)
     }
-
-    /// Indices of the columns matching `aliases`; see [`Table::find_columns`].
-    pub fn find_columns(&self, aliases: &[&str]) -> Vec<usize> {
-        find_columns(&self.header, aliases)
-    }
-
-    /// The column name as written, or `""` when `col` is out of range.
-    pub fn column_name(&self, col: usize) -> &str {
-        self.header.get(col).map_or("", String::as_str)
-    }
-
-    /// Parses field `col` of `row` as a finite number; see [`parse_finite`].
-    pub fn number(&self, row: &Row, col: usize) -> Result<f64> {
-        parse_finite(&self.path, row.line, row.field(col), self.column_name(col))
-    }
-
-    /// An [`Error::Parse`] for this file at `line`.
-    pub fn error(&self, line: usize, msg: impl Into<String>) -> Error {
-        Error::Parse {
-            path: self.path.clone(),
-            line,
-            msg: msg.into(),
-        }
-    }
-}
-
-fn find_columns(header: &[String], aliases: &[&str]) -> Vec<usize> {
-    header
-        .iter()
-        .enumerate()
-        .filter(|(_, name)| name_matches(name, aliases))
-        .map(|(i, _)| i)
-        .collect()
 }
 
 impl Row {
@@ -291,11 +267,16 @@ impl Row {
     }
 }
 
-impl Table {
+impl TableHead {
     /// Indices (0-based) of the columns whose normalised name (see
     /// [`normalize_name`]) equals one of `aliases`, which must be lower case.
     pub fn find_columns(&self, aliases: &[&str]) -> Vec<usize> {
-        find_columns(&self.header, aliases)
+        self.header
+            .iter()
+            .enumerate()
+            .filter(|(_, name)| name_matches(name, aliases))
+            .map(|(i, _)| i)
+            .collect()
     }
 
     /// The column name as written, or `""` when `col` is out of range.

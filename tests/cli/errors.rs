@@ -1,7 +1,7 @@
 //! Bad input: a clear `error: FILE:LINE: ...`, exit code 2, no panic, and no
 //! output written or lost.
 
-use crate::util::{taumap, tempdir, voigt_csv};
+use crate::util::{assert_clean_failure, taumap, tempdir, voigt_csv};
 
 /// Writes `text` as `bad.csv`, runs `taumap invert bad.csv`, and checks the
 /// three things every error must satisfy.
@@ -9,19 +9,7 @@ fn expect_error(text: &str, needle: &str) -> crate::util::Run {
     let dir = tempdir();
     std::fs::write(dir.path().join("bad.csv"), text).unwrap();
     let run = taumap(dir.path(), &["invert", "bad.csv"]);
-    assert_eq!(run.code, 2, "{}", run.explain());
-    assert!(run.stderr.starts_with("error: "), "{}", run.explain());
-    assert!(
-        run.stderr.contains(needle),
-        "wanted {needle:?}\n{}",
-        run.explain()
-    );
-    assert!(!run.stderr.contains("panicked"), "{}", run.explain());
-    assert!(
-        !dir.path().join("bad-taumap").exists(),
-        "no output directory on failure\n{}",
-        run.explain()
-    );
+    assert_clean_failure(&run, needle, dir.path(), "bad-taumap");
     run
 }
 

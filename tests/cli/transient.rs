@@ -1,7 +1,7 @@
 //! `taumap transient` end to end: the demo pulse test, each kind of step,
 //! and bad input (exit 2, `error: FILE:LINE: ...`, nothing written or lost).
 
-use crate::util::{Run, repo_root, taumap, tempdir};
+use crate::util::{Run, assert_clean_failure, repo_root, taumap, tempdir};
 use std::fmt::Write as _;
 
 fn json(run: &Run) -> serde_json::Value {
@@ -211,19 +211,7 @@ fn expect_error(text: &str, args: &[&str], needle: &str) {
     let mut all = vec!["transient", "bad.csv"];
     all.extend_from_slice(args);
     let run = taumap(dir.path(), &all);
-    assert_eq!(run.code, 2, "{}", run.explain());
-    assert!(run.stderr.starts_with("error: "), "{}", run.explain());
-    assert!(
-        run.stderr.contains(needle),
-        "wanted {needle:?}\n{}",
-        run.explain()
-    );
-    assert!(!run.stderr.contains("panicked"), "{}", run.explain());
-    assert!(
-        !dir.path().join("bad-taumap").exists(),
-        "no output directory on failure\n{}",
-        run.explain()
-    );
+    assert_clean_failure(&run, needle, dir.path(), "bad-taumap");
 }
 
 #[test]

@@ -37,6 +37,25 @@ pub fn taumap(dir: &Path, args: &[&str]) -> Run {
     }
 }
 
+/// Checks what every failed run must show: exit code 2, a first line
+/// starting `error: ` and containing `needle`, no panic, and no output
+/// directory `out` in `dir`.
+pub fn assert_clean_failure(run: &Run, needle: &str, dir: &Path, out: &str) {
+    assert_eq!(run.code, 2, "{}", run.explain());
+    assert!(run.stderr.starts_with("error: "), "{}", run.explain());
+    assert!(
+        run.stderr.contains(needle),
+        "wanted {needle:?}\n{}",
+        run.explain()
+    );
+    assert!(!run.stderr.contains("panicked"), "{}", run.explain());
+    assert!(
+        !dir.join(out).exists(),
+        "no output directory on failure\n{}",
+        run.explain()
+    );
+}
+
 /// The repository root (for the checked-in demo data).
 pub fn repo_root() -> PathBuf {
     PathBuf::from(env!("CARGO_MANIFEST_DIR"))
