@@ -26,9 +26,9 @@ use crate::kernel::{Basis, ImpedanceKernel};
 use crate::lambda::LambdaRule;
 pub use crate::lambda::{LambdaChoice, LambdaCurves};
 use crate::peaks::{Peak, find_peaks};
-pub use crate::regularise::{DEFAULT_RULE, DrtOptions};
+pub use crate::regularise::{DEFAULT_RULE, DrtOptions, SolveInfo};
 use crate::regularise::{Regularised, regularise, sample_distribution, with_extension_prior};
-use crate::solve::{SolveStatus, Tikhonov};
+use crate::solve::Tikhonov;
 use crate::{Error, Result};
 use nalgebra::{DMatrix, DVector};
 use std::f64::consts::PI;
@@ -87,21 +87,6 @@ impl InvertParams {
     pub fn validate(&self) -> Result<()> {
         self.drt.validate()
     }
-}
-
-/// Diagnostics of the final solve.
-#[derive(Clone, Debug, serde::Serialize)]
-pub struct SolveInfo {
-    /// Active-set iterations of the final solve.
-    pub iterations: usize,
-    /// Whether every solve converged.
-    pub status: SolveStatus,
-    /// Number of equations (2 per frequency).
-    pub equations: usize,
-    /// Number of unknowns.
-    pub unknowns: usize,
-    /// Effective number of parameters at the final lambda.
-    pub dof: f64,
 }
 
 /// Result of [`invert`], in physical units.
@@ -351,13 +336,7 @@ fn finish(
         residual_im_rel,
         residual_rms_rel,
         peaks,
-        info: SolveInfo {
-            iterations: sol.iterations,
-            status: reg.status,
-            equations: 2 * m,
-            unknowns: d.problem.ncols(),
-            dof: reg.dof,
-        },
+        info: reg.info(&d.problem),
         curves: reg.curves,
     })
 }

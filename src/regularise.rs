@@ -212,6 +212,35 @@ fn extension_gram(basis: &Basis, band: (f64, f64)) -> DMatrix<f64> {
     m
 }
 
+/// Diagnostics of the final solve.
+#[derive(Clone, Debug, serde::Serialize)]
+pub struct SolveInfo {
+    /// Active-set iterations of the final solve.
+    pub iterations: usize,
+    /// Whether every solve converged.
+    pub status: SolveStatus,
+    /// Number of equations (2 per frequency of a spectrum, 1 per time bin of
+    /// a transient).
+    pub equations: usize,
+    /// Number of unknowns.
+    pub unknowns: usize,
+    /// Effective number of parameters at the final lambda.
+    pub dof: f64,
+}
+
+impl Regularised {
+    /// The diagnostics of this solution of `problem`.
+    pub fn info(&self, problem: &Tikhonov) -> SolveInfo {
+        SolveInfo {
+            iterations: self.solution.iterations,
+            status: self.status,
+            equations: problem.nrows(),
+            unknowns: problem.ncols(),
+            dof: self.dof,
+        }
+    }
+}
+
 /// The regularised solution and how `lambda` was found.
 #[derive(Clone, Debug)]
 pub struct Regularised {

@@ -61,8 +61,10 @@ use crate::io::transient::{Bin, BinnedTransient, MIN_BINS};
 use crate::kernel::{Basis, StepShape, step_kernel};
 use crate::lambda::{LambdaCurves, LambdaRule};
 use crate::peaks::{Peak, find_peaks};
-use crate::regularise::{DrtOptions, regularise, sample_distribution, with_extension_prior};
-use crate::solve::{SolveStatus, Tikhonov};
+use crate::regularise::{
+    DrtOptions, SolveInfo, regularise, sample_distribution, with_extension_prior,
+};
+use crate::solve::Tikhonov;
 use crate::{Error, Result};
 use nalgebra::{DMatrix, DVector};
 
@@ -207,21 +209,6 @@ impl TransientParams {
     }
 }
 
-/// Diagnostics of the final solve.
-#[derive(Clone, Debug, serde::Serialize)]
-pub struct TransientSolveInfo {
-    /// Active-set iterations of the final solve.
-    pub iterations: usize,
-    /// Whether every solve converged.
-    pub status: SolveStatus,
-    /// Number of equations (one per time bin).
-    pub equations: usize,
-    /// Number of unknowns.
-    pub unknowns: usize,
-    /// Effective number of parameters at the final lambda.
-    pub dof: f64,
-}
-
 /// Result of [`invert_transient`], in physical units.
 #[derive(Clone, Debug)]
 pub struct TransientInversion {
@@ -278,7 +265,7 @@ pub struct TransientInversion {
     /// Rule curves, when a rule was used.
     pub curves: Option<LambdaCurves>,
     /// Solver diagnostics.
-    pub info: TransientSolveInfo,
+    pub info: SolveInfo,
     /// Doubts about the input worth showing the user (e.g. a response moving
     /// against the step's sign); empty when none.
     pub warnings: Vec<String>,
@@ -533,13 +520,7 @@ pub fn invert_transient(
         residual_rel,
         residual_rms_rel,
         peaks,
-        info: TransientSolveInfo {
-            iterations: sol.iterations,
-            status: reg.status,
-            equations: m,
-            unknowns: d.problem.ncols(),
-            dof: reg.dof,
-        },
+        info: reg.info(&d.problem),
         curves: reg.curves,
         warnings: d.warnings,
     })
