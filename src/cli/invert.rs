@@ -1,7 +1,7 @@
 //! `taumap invert`: spectrum in, DRT, fit, summary and plots out.
 
 use super::args::{BasisArg, InductanceArg, InvertArgs, SolveArgs, WeightingArg};
-use anyhow::{Result, bail};
+use anyhow::{Context, Result, bail};
 use std::io::Write;
 use std::path::{Path, PathBuf};
 use taumap::invert::{InductanceMode, Inversion, InvertParams, Weighting, invert};
@@ -93,7 +93,8 @@ pub fn invert_into(
     out: &Path,
     plots: bool,
 ) -> Result<(Summary, Vec<PathBuf>)> {
-    let inv = invert(spectrum, params)?;
+    // Whole-spectrum problems name the file they came from.
+    let inv = invert(spectrum, params).with_context(|| input.display().to_string())?;
     let summary = Summary::new(&input.display().to_string(), spectrum, params, &inv);
     let written = write_outputs(out, spectrum, &inv, &summary, plots)?;
     Ok((summary, written))

@@ -2,7 +2,7 @@
 
 use super::args::TransientArgs;
 use super::invert::{default_out_dir, drt_options_from, lambda_figure};
-use anyhow::Result;
+use anyhow::{Context, Result};
 use std::io::Write;
 use std::path::{Path, PathBuf};
 use taumap::io::transient::{BinOptions, BinnedTransient, Quantity, read_transient};
@@ -58,7 +58,8 @@ pub fn transient_into(
     out: &Path,
     plots: bool,
 ) -> Result<(TransientSummary, Vec<PathBuf>)> {
-    let inv = invert_transient(record, params)?;
+    // Whole-record problems name the file they came from.
+    let inv = invert_transient(record, params).with_context(|| input.display().to_string())?;
     for w in &inv.warnings {
         eprintln!("warning: {}: {w}", input.display());
     }

@@ -92,7 +92,9 @@ pub fn read_table<R: BufRead>(reader: R, path: &Path, example_header: &str) -> R
 
 /// A delimited table read one row at a time, in memory bounded by the
 /// longest line: for records too long to hold as text (a data logger's
-/// million samples). Same layout and errors as [`read_table`].
+/// million samples). Same layout and errors as [`read_table`]. Lines are
+/// pulled up to each `\n`, so a file whose only line ends are lone `\r`
+/// (old Mac text) is held whole while it is split.
 /// Dereferences to its [`TableHead`].
 #[derive(Debug)]
 pub struct TableReader<R: BufRead> {

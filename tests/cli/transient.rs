@@ -263,7 +263,11 @@ fn bad_input_is_reported_with_file_and_line() {
     let flat: String = std::iter::once("time_s,voltage_v\n".to_string())
         .chain((1..200).map(|k| format!("{},1.0\n", k as f64 * 1e-4)))
         .collect();
-    expect_error(&flat, &["--relaxation-current-a", "1"], "does not change");
+    expect_error(
+        &flat,
+        &["--relaxation-current-a", "1"],
+        "error: bad.csv: the response does not change",
+    );
     // A series capacitance on a relaxation.
     expect_error(
         &good,
