@@ -142,6 +142,14 @@ pub struct TransientArgs {
     /// Skip samples before S seconds after the step (settling, lead ringing).
     #[arg(long, value_name = "S", default_value_t = 0.0)]
     pub fit_start: f64,
+    /// Time of the step on the file's time axis (s); times are taken relative to it.
+    #[arg(
+        long,
+        value_name = "S",
+        default_value_t = 0.0,
+        allow_negative_numbers = true
+    )]
+    pub step_time: f64,
     /// Shared solver options.
     #[command(flatten)]
     pub solve: SolveArgs,

@@ -40,6 +40,7 @@ pub fn run(a: &TransientArgs) -> Result<()> {
     let bins = BinOptions {
         bins_per_decade: a.bins_per_decade,
         fit_start_s: a.fit_start,
+        step_time_s: a.step_time,
     };
     let record = read_transient(&a.input, quantity, &bins)?;
     let out = a.out.clone().unwrap_or_else(|| default_out_dir(&a.input));

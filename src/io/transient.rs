@@ -98,6 +98,9 @@ pub struct BinOptions {
     /// Samples at `0 < t < fit_start_s` are skipped (instrument settling,
     /// ringing of the leads right after the step); 0 keeps them all.
     pub fit_start_s: f64,
+    /// When the step happened on the file's time axis (s): every time is
+    /// taken relative to it, so a logger's clock need not start at the step.
+    pub step_time_s: f64,
 }
 
 impl Default for BinOptions {
@@ -105,6 +108,7 @@ impl Default for BinOptions {
         Self {
             bins_per_decade: DEFAULT_BINS_PER_DECADE,
             fit_start_s: 0.0,
+            step_time_s: 0.0,
         }
     }
 }
@@ -275,6 +279,7 @@ impl BinnedTransient {
 struct Accumulator {
     binner: LogBinner,
     fit_start_s: f64,
+    step_time_s: f64,
     pre_sum: f64,
     pre_n: usize,
     at_step: usize,
@@ -292,9 +297,17 @@ impl Accumulator {
                 value: opts.fit_start_s,
             });
         }
+        if !opts.step_time_s.is_finite() {
+            return Err(Error::Param {
+                name: "step-time",
+                expected: "a finite time in seconds",
+                value: opts.step_time_s,
+            });
+        }
         Ok(Self {
             binner: LogBinner::new(opts.bins_per_decade)?,
             fit_start_s: opts.fit_start_s,
+            step_time_s: opts.step_time_s,
             pre_sum: 0.0,
             pre_n: 0,
             at_step: 0,
@@ -304,7 +317,9 @@ impl Accumulator {
         })
     }
 
-    fn push(&mut self, t: f64, v: f64) -> Result<()> {
+    /// Adds a sample at time `t` on the file's axis.
+    fn push(&mut self, t_file: f64, v: f64) -> Result<()> {
+        let t = t_file - self.step_time_s;
         if t.is_nan() || t <= self.last_t {
             return Err(Error::Data(format!(
                 "time {t} s does not increase after {} s",
@@ -549,6 +564,51 @@ mod tests {
         assert!(b.bins.len() <= 126, "{}", b.bins.len());
         assert!(b.bins.len() >= 100, "{}", b.bins.len());
         assert_eq!(b.bins.iter().map(|x| x.count).sum::<usize>(), 100_000);
+    }
+
+    /// A logger clock that starts before the step: with `step_time_s` the
+    /// same record bins exactly as one written relative to the step.
+    #[test]
+    fn step_time_shifts_the_time_axis() {
+        let rows = |offset: f64| -> String {
+            let mut s = String::from("time_s,voltage_v\n");
+            for k in -20..=400 {
+                // 2^-13 s steps: shifting by 2.5 s is exact in binary.
+                let t = k as f64 / 8192.0;
+                s.push_str(&format!(
+                    "{},{}\n",
+                    t + offset,
+                    if k < 0 { 1.0 } else { 1.5 }
+                ));
+            }
+            s
+        };
+        let opts = BinOptions::default();
+        let rel = parse_transient(
+            rows(0.0).as_bytes(),
+            Path::new("a.csv"),
+            Quantity::Voltage,
+            &opts,
+        )
+        .unwrap();
+        let shifted = BinOptions {
+            step_time_s: 2.5,
+            ..opts
+        };
+        let abs = parse_transient(
+            rows(2.5).as_bytes(),
+            Path::new("b.csv"),
+            Quantity::Voltage,
+            &shifted,
+        )
+        .unwrap();
+        assert_eq!(abs.pre_step_samples, 20);
+        assert_eq!(abs.at_step_samples + abs.response_samples, 401);
+        assert_eq!(abs.bins.len(), rel.bins.len());
+        for (x, y) in abs.bins.iter().zip(&rel.bins) {
+            assert_eq!(x.count, y.count);
+            assert!((x.time_s - y.time_s).abs() < 1e-9);
+        }
     }
 
     #[test]

@@ -124,6 +124,8 @@ pub struct TransientSettings {
     pub bins_per_decade: f64,
     /// Samples before this time after the step were skipped (s).
     pub fit_start_s: f64,
+    /// Time of the step on the file's time axis (s).
+    pub step_time_s: f64,
     /// Whether a series capacitance was modelled.
     pub series_capacitance_modelled: bool,
 }
@@ -231,6 +233,7 @@ impl TransientSummary {
                 drt: DrtSettings::new(&params.drt, &inv.grid),
                 bins_per_decade: bins.bins_per_decade,
                 fit_start_s: bins.fit_start_s,
+                step_time_s: bins.step_time_s,
                 series_capacitance_modelled: params.series_capacitance,
             },
         }
