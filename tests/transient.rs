@@ -114,48 +114,72 @@ fn galvanostatic_two_rc_network() {
 /// its current-step response (the Fuoss-Kirkwood distribution integrated,
 /// see synth) and its impedance spectrum must invert to the same peak and
 /// R_pol, and both to the analytical distribution (peak at tau0, area R).
-/// Over noise seeds 1-10 this passes 8 times; the other two show a 4-5 %
-/// side peak in the arc's tail (docs/transient-accuracy.md).
+///
+/// Checked over noise seeds 1-10 (0.1 % noise in both domains). On every
+/// seed: the main peak of both routes within 0.1 decade of each other and of
+/// tau0, R_pol within 3 % of each other and of R, R_inf within 3 %, and the
+/// transient's distribution at tau0 within 15 % of Fuoss-Kirkwood. Exactly
+/// one reported peak in both routes on at least 8 of the 10 seeds: the others
+/// show a 4-5 % side peak in the arc's tail (docs/transient-accuracy.md).
 #[test]
 fn zarc_transient_agrees_with_impedance_route_and_analytics() {
     let cell = cells::zarc();
     let t = log_times(1e-6, 10.0, 60.0);
     let i_a = 1e-3;
-    let mut v: Vec<f64> = t.iter().map(|&t| i_a * cell.current_step_ohm(t)).collect();
-    add_white_noise(&mut v, 1e-3 * i_a * 60.0, 3);
-    let tr = run(&t, &v, StepKind::CurrentStep { current_a: i_a });
-    assert_eq!(tr.baseline_source, BaselineSource::None);
-    let sp = invert(
-        &reference_spectrum(&cell, 0.001, 3).unwrap(),
-        &InvertParams::default(),
-    )
-    .unwrap();
-    assert_eq!(tr.peaks.len(), 1, "{:?}", tr.peaks);
-    assert_eq!(sp.peaks.len(), 1, "{:?}", sp.peaks);
-    let (pt, ps) = (&tr.peaks[0], &sp.peaks[0]);
+    let clean: Vec<f64> = t.iter().map(|&t| i_a * cell.current_step_ohm(t)).collect();
+    let want_gamma = cell.gamma_ohm(1e-3);
+    let main = |peaks: &[taumap::peaks::Peak]| {
+        peaks
+            .iter()
+            .max_by(|a, b| a.area.total_cmp(&b.area))
+            .expect("at least one peak")
+            .tau_s
+    };
+    let mut single = 0;
+    for seed in 1..=10u64 {
+        let mut v = clean.clone();
+        add_white_noise(&mut v, 1e-3 * i_a * 60.0, seed);
+        let tr = run(&t, &v, StepKind::CurrentStep { current_a: i_a });
+        assert_eq!(tr.baseline_source, BaselineSource::None);
+        let sp = invert(
+            &reference_spectrum(&cell, 0.001, seed).unwrap(),
+            &InvertParams::default(),
+        )
+        .unwrap();
+        let (mt, ms) = (main(&tr.peaks), main(&sp.peaks));
+        assert!(decades(mt, ms) < 0.1, "seed {seed}: {mt} vs {ms}");
+        assert!(decades(mt, 1e-3) < 0.1, "seed {seed}: {mt}");
+        assert!(decades(ms, 1e-3) < 0.1, "seed {seed}: {ms}");
+        assert!((tr.total / sp.r_pol_ohm - 1.0).abs() < 0.03, "seed {seed}");
+        assert!(
+            (tr.total / 50.0 - 1.0).abs() < 0.03,
+            "seed {seed}: {}",
+            tr.total
+        );
+        assert!((sp.r_pol_ohm / 50.0 - 1.0).abs() < 0.03, "seed {seed}");
+        assert!(
+            (tr.instantaneous.unwrap() / 10.0 - 1.0).abs() < 0.03,
+            "seed {seed}"
+        );
+        let k = tr
+            .tau_s
+            .iter()
+            .enumerate()
+            .min_by(|a, b| decades(*a.1, 1e-3).total_cmp(&decades(*b.1, 1e-3)))
+            .unwrap()
+            .0;
+        assert!(
+            (tr.distribution[k] / want_gamma - 1.0).abs() < 0.15,
+            "seed {seed}: {} vs {want_gamma}",
+            tr.distribution[k]
+        );
+        if tr.peaks.len() == 1 && sp.peaks.len() == 1 {
+            single += 1;
+        }
+    }
     assert!(
-        decades(pt.tau_s, ps.tau_s) < 0.1,
-        "{} vs {}",
-        pt.tau_s,
-        ps.tau_s
-    );
-    assert!((tr.total / sp.r_pol_ohm - 1.0).abs() < 0.03);
-    assert!(decades(pt.tau_s, 1e-3) < 0.1, "{}", pt.tau_s);
-    assert!((tr.total / 50.0 - 1.0).abs() < 0.03, "{}", tr.total);
-    assert!((tr.instantaneous.unwrap() / 10.0 - 1.0).abs() < 0.03);
-    // Shape: the distribution at tau0 within 15 % of Fuoss-Kirkwood.
-    let want = cell.gamma_ohm(1e-3);
-    let k = tr
-        .tau_s
-        .iter()
-        .enumerate()
-        .min_by(|a, b| decades(*a.1, 1e-3).total_cmp(&decades(*b.1, 1e-3)))
-        .unwrap()
-        .0;
-    assert!(
-        (tr.distribution[k] / want - 1.0).abs() < 0.15,
-        "{} vs {want}",
-        tr.distribution[k]
+        single >= 8,
+        "one peak in both routes on {single} of 10 seeds"
     );
 }
 
