@@ -57,7 +57,7 @@
 //! ```
 
 use crate::grid::TauGrid;
-use crate::io::transient::{Bin, BinnedTransient, MIN_BINS};
+use crate::io::transient::{Bin, BinnedTransient, MIN_BINS, Quantity};
 use crate::kernel::{Basis, StepShape, step_kernel};
 use crate::lambda::{LambdaCurves, LambdaRule};
 use crate::peaks::{Peak, find_peaks};
@@ -96,6 +96,15 @@ impl StepKind {
         match self {
             StepKind::CurrentStep { current_a } | StepKind::Relaxation { current_a } => current_a,
             StepKind::VoltageStep { voltage_v } => voltage_v,
+        }
+    }
+
+    /// The quantity the record holds: voltage for current steps and
+    /// relaxations, current for voltage steps.
+    pub fn quantity(self) -> Quantity {
+        match self {
+            StepKind::VoltageStep { .. } => Quantity::Current,
+            _ => Quantity::Voltage,
         }
     }
 

@@ -16,7 +16,7 @@ use super::transient::{self, transient_into};
 use anyhow::Result;
 use std::fmt::Write as _;
 use taumap::invert::{DrtOptions, InvertParams};
-use taumap::io::transient::{BinOptions, Quantity, read_transient};
+use taumap::io::transient::{BinOptions, read_transient};
 use taumap::io::write::write_atomic;
 use taumap::io::{Spectrum, read_spectrum};
 use taumap::report::num;
@@ -148,10 +148,10 @@ pub fn run(a: &DemoArgs) -> Result<()> {
     let (t, v) = demo_pulse();
     write_atomic(&pulse_path, pulse_csv(&t, &v).as_bytes())?;
     let bins = BinOptions::default();
-    let record = read_transient(&pulse_path, Quantity::Voltage, &bins)?;
     let mut tparams = TransientParams::new(StepKind::CurrentStep {
         current_a: PULSE_CURRENT_A,
     });
+    let record = read_transient(&pulse_path, tparams.step.quantity(), &bins)?;
     tparams.drt.all_curves = true;
     let pulse_out = default_out_dir(&pulse_path);
     let (tsummary, twritten) =

@@ -5,7 +5,7 @@ use super::invert::{default_out_dir, drt_options_from, lambda_figure};
 use anyhow::{Context, Result};
 use std::io::Write;
 use std::path::{Path, PathBuf};
-use taumap::io::transient::{BinOptions, BinnedTransient, Quantity, read_transient};
+use taumap::io::transient::{BinOptions, BinnedTransient, read_transient};
 use taumap::io::write::OutputSet;
 use taumap::plot::{self, ImageFormat};
 use taumap::report::transient::{self as report, Quantities, TransientSummary};
@@ -33,16 +33,12 @@ pub fn run(a: &TransientArgs) -> Result<()> {
         series_capacitance: a.series_capacitance,
     };
     params.validate()?;
-    let quantity = match params.step {
-        StepKind::VoltageStep { .. } => Quantity::Current,
-        _ => Quantity::Voltage,
-    };
     let bins = BinOptions {
         bins_per_decade: a.bins_per_decade,
         fit_start_s: a.fit_start,
         step_time_s: a.step_time,
     };
-    let record = read_transient(&a.input, quantity, &bins)?;
+    let record = read_transient(&a.input, params.step.quantity(), &bins)?;
     let out = a.out.clone().unwrap_or_else(|| default_out_dir(&a.input));
     let (summary, written) =
         transient_into(&a.input, &record, &bins, &params, &out, !a.solve.no_plots)?;

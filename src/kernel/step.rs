@@ -57,7 +57,6 @@ pub fn step_kernel(
         .iter()
         .map(|&(u, w)| ((-u).exp(), w))
         .collect();
-    let total: f64 = nodes.iter().map(|(_, w)| w).sum();
     let mut k = DMatrix::zeros(m, n);
     for (j, &yj) in basis.centers().iter().enumerate() {
         let inv_tau = (-yj).exp();
@@ -65,26 +64,20 @@ pub fn step_kernel(
             let t = time_s[i];
             let half_r = 0.5 * time_var_s2[i] / (t * t);
             let xt = t * inv_tau;
-            let mut decay = 0.0;
+            let mut sum = 0.0;
             for &(e, w) in &nodes {
                 let x = xt * e;
-                if x < 745.0 {
-                    decay += w * (-x).exp() * (1.0 + half_r * x * x);
-                }
+                // e^{-x} underflows to 0 beyond 745: fully relaxed.
+                let ex = if x < 745.0 { (-x).exp() } else { 0.0 };
+                let corr = half_r * x * x * ex;
+                sum += w * match shape {
+                    StepShape::Decay => ex + corr,
+                    // 1 - e^{-x} loses digits for small x; expm1 keeps them.
+                    StepShape::Rise if x < 0.5 => -(-x).exp_m1() - corr,
+                    StepShape::Rise => 1.0 - ex - corr,
+                };
             }
-            k[(i, j)] = match shape {
-                StepShape::Decay => decay,
-                // Where the decay is large, 1 - decay loses digits; sum the
-                // rise directly there.
-                StepShape::Rise if decay > 0.5 * total => nodes
-                    .iter()
-                    .map(|&(e, w)| {
-                        let x = xt * e;
-                        w * (-(-x).exp_m1() - half_r * x * x * (-x).exp())
-                    })
-                    .sum(),
-                StepShape::Rise => total - decay,
-            };
+            k[(i, j)] = sum;
         }
     }
     k

@@ -13,7 +13,7 @@
 //! - `summary.json`: see [`TransientSummary`]
 
 use super::{DrtSettings, RuleChoice, candidates, num, rule_label};
-use crate::io::transient::{BinOptions, BinnedTransient};
+use crate::io::transient::{BinOptions, BinnedTransient, Quantity};
 use crate::solve::SolveStatus;
 use crate::transient::{
     BaselineSource, DistributionUnit, StepKind, TransientInversion, TransientParams,
@@ -40,9 +40,9 @@ pub fn drt_csv(inv: &TransientInversion) -> String {
 
 /// Unit suffix of the measured quantity: `v` or `a`.
 fn measured_suffix(step: StepKind) -> &'static str {
-    match step {
-        StepKind::VoltageStep { .. } => "a",
-        _ => "v",
+    match step.quantity() {
+        Quantity::Current => "a",
+        Quantity::Voltage => "v",
     }
 }
 
