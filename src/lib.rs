@@ -13,24 +13,31 @@
 //! solver on time-domain kernels ([`transient`]).
 //!
 //! # Module map
-//! - [`io`]: CSV readers (line-aware errors, streaming with log-time binning
-//!   for long transients) and atomic output writing.
+//! - [`io`]: CSV readers (line-aware errors, streaming for long transients)
+//!   and atomic output writing.
+//! - [`pipeline`]: the inversion pipeline: options, the prepared [`Plan`]
+//!   (built once per measurement axis), the lambda choice and final solve,
+//!   the shared result type [`Distribution`], and the spectrum and
+//!   transient front ends ([`SpectrumPlan`], [`TransientPlan`]) with the
+//!   log-time binning of transients.
 //! - [`grid`]: the log-spaced tau grid.
 //! - [`kernel`]: basis functions, quadrature, impedance and step kernels.
-//! - [`solve`]: NNLS and the Tikhonov problem (plain matrices only).
+//! - [`solve`]: NNLS, the Tikhonov problem and (feature `osqp`) an
+//!   independent QP backend; plain matrices only.
 //! - [`lambda`]: rules for choosing lambda (GCV, L-curve, discrepancy, re-im CV).
 //! - [`peaks`]: peak detection and per-peak resistance.
-//! - [`regularise`]: what every inversion shares: options, extension prior,
-//!   choice of lambda, final solve, sampled distribution.
-//! - [`invert`]: the full pipeline, spectrum to DRT.
-//! - [`transient`]: the full pipeline, step transient to distribution.
 //! - [`report`]: output tables and the JSON summary.
-//! - [`plot`]: SVG and PNG figures.
-//! - [`synth`]: analytical elements for tests and the demo.
+//! - [`plot`] (feature `plot`): SVG and PNG figures.
+//! - [`synth`] (feature `synth`): analytical elements for tests and the demo.
+//! - [`linalg`]: the dense [`linalg::Matrix`] of the public API.
+//!
+//! The binary enables the `plot` and `synth` features (both on by
+//! default); a library user who needs neither builds with
+//! `default-features = false`.
 //!
 //! # Example
 //! ```
-//! use taumap::invert::{invert, InvertParams};
+//! use taumap::pipeline::{invert, InvertParams};
 //! use taumap::io::Spectrum;
 //! use taumap::synth::{log_frequencies, Element, Series};
 //!
@@ -42,27 +49,27 @@
 //! let f = log_frequencies(1e-1, 1e5, 10.0);
 //! let (re, im) = cell.sample(&f);
 //! let inv = invert(&Spectrum::new(f, re, im)?, &InvertParams::default())?;
-//! assert_eq!(inv.peaks.len(), 1);
-//! assert!((inv.peaks[0].tau_s.log10() + 3.0).abs() < 0.05);
-//! assert!((inv.r_pol_ohm - 50.0).abs() < 0.5);
+//! assert_eq!(inv.drt.peaks.len(), 1);
+//! assert!((inv.drt.peaks[0].tau_s.log10() + 3.0).abs() < 0.05);
+//! assert!((inv.drt.total - 50.0).abs() < 0.5);
 //! # Ok::<(), taumap::Error>(())
 //! ```
 #![warn(missing_docs)]
 
 pub mod error;
 pub mod grid;
-pub mod invert;
 pub mod io;
 pub mod kernel;
 pub mod lambda;
-#[cfg(feature = "osqp")]
-pub mod osqp_backend;
+pub mod linalg;
 pub mod peaks;
+pub mod pipeline;
+#[cfg(feature = "plot")]
 pub mod plot;
-pub mod regularise;
 pub mod report;
 pub mod solve;
+#[cfg(feature = "synth")]
 pub mod synth;
-pub mod transient;
 
 pub use error::{Error, Result};
+pub use pipeline::{Distribution, Plan, SpectrumPlan, TransientPlan};

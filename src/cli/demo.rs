@@ -15,13 +15,13 @@ use super::invert::{default_out_dir, invert_into, report_run};
 use super::transient::{self, transient_into};
 use anyhow::Result;
 use std::fmt::Write as _;
-use taumap::invert::{DrtOptions, InvertParams};
-use taumap::io::transient::{BinOptions, read_transient};
+use taumap::io::transient::read_transient;
+use taumap::pipeline::binning::BinOptions;
+use taumap::pipeline::{DrtOptions, InvertParams, StepKind, TransientParams};
 use taumap::io::write::write_atomic;
 use taumap::io::{Spectrum, read_spectrum};
 use taumap::report::num;
 use taumap::synth::{Element, Series, add_noise, add_white_noise, log_frequencies, log_times};
-use taumap::transient::{StepKind, TransientParams};
 
 /// Name of the demo spectrum file.
 pub const SPECTRUM_FILE: &str = "button-cell-700c.csv";

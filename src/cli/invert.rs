@@ -1,18 +1,18 @@
 //! `taumap invert`: spectrum in, DRT, fit, summary and plots out.
 
 use super::args::{BasisArg, InductanceArg, InvertArgs, SolveArgs, WeightingArg};
+use super::output::{FORMATS, add_distribution, lambda_phrase, print_warnings};
 use anyhow::{Context, Result, bail};
-use std::io::Write;
 use std::path::{Path, PathBuf};
-use taumap::invert::{InductanceMode, Inversion, InvertParams, Weighting, invert};
 use taumap::io::Spectrum;
 use taumap::io::spectrum::read_spectrum_with_layout;
 use taumap::io::write::OutputSet;
 use taumap::kernel::BasisKind;
-use taumap::lambda::LambdaRule;
-use taumap::lambda::{LambdaChoice, LambdaCurves};
-use taumap::plot::{self, ImageFormat};
-use taumap::regularise::DrtOptions;
+use taumap::pipeline::{
+    DrtOptions, InductanceMode, InvertParams, LambdaChoice, LambdaRule, SpectrumInversion,
+    Weighting, invert,
+};
+use taumap::plot;
 use taumap::report::{self, Summary};
 
 /// Turns the shared solver options into [`DrtOptions`], with
@@ -38,7 +38,7 @@ pub fn drt_options_from(solve: &SolveArgs, default_per_decade: f64) -> Result<Dr
         },
         penalty_order: solve.penalty_order,
         lambda,
-        all_curves: true,
+        all_curves: solve.all_rules,
         ..DrtOptions::default()
     };
     p.validate()?;
@@ -95,6 +95,7 @@ pub fn invert_into(
 ) -> Result<(Summary, Vec<PathBuf>)> {
     // Whole-spectrum problems name the file they came from.
     let inv = invert(spectrum, params).with_context(|| input.display().to_string())?;
+    print_warnings(input, &inv.drt);
     let summary = Summary::new(&input.display().to_string(), spectrum, params, &inv);
     let written = write_outputs(out, spectrum, &inv, &summary, plots)?;
     Ok((summary, written))
@@ -102,139 +103,76 @@ pub fn invert_into(
 
 /// Prints either the JSON summary (with `--json`) or a short human report.
 pub fn report_run(summary: &Summary, out: &Path, written: &[PathBuf], json: bool) -> Result<()> {
-    let mut stdout = std::io::stdout().lock();
-    if json {
-        stdout.write_all(summary.to_json().as_bytes())?;
-        return Ok(());
-    }
-    writeln!(
-        stdout,
-        "r_inf = {:.6} ohm, r_pol = {:.6} ohm, lambda = {:.3e} ({}), residual rms = {:.3} %",
-        summary.r_inf_ohm,
-        summary.r_pol_ohm,
-        summary.lambda,
-        summary.lambda_rule,
-        100.0 * summary.residual_rms_rel
-    )?;
-    if let Some(l) = summary.inductance_h {
-        writeln!(stdout, "inductance = {l:.4e} H")?;
-    }
-    for (i, p) in summary.peaks.iter().enumerate() {
+    super::output::report_run(json.then(|| summary.to_json()), out, written, |w| {
         writeln!(
-            stdout,
-            "peak {}: tau = {:.4e} s ({:.4e} Hz), r = {:.6} ohm",
-            i + 1,
-            p.tau_s,
-            p.frequency_hz,
-            p.r_ohm
+            w,
+            "r_inf = {:.6} ohm, r_pol = {:.6} ohm, {}",
+            summary.r_inf_ohm,
+            summary.r_pol_ohm,
+            lambda_phrase(&summary.fit)
         )?;
-    }
-    writeln!(stdout, "wrote {} files to {}", written.len(), out.display())?;
-    Ok(())
+        if let Some(l) = summary.inductance_h {
+            writeln!(w, "inductance = {l:.4e} H")?;
+        }
+        for (i, p) in summary.peaks.iter().enumerate() {
+            writeln!(
+                w,
+                "peak {}: tau = {:.4e} s ({:.4e} Hz), r = {:.6} ohm",
+                i + 1,
+                p.tau_s,
+                p.frequency_hz,
+                p.r_ohm
+            )?;
+        }
+        Ok(())
+    })
 }
 
 /// Builds every output in memory, then commits them together.
 pub fn write_outputs(
     out: &Path,
     spectrum: &Spectrum,
-    inv: &Inversion,
+    inv: &SpectrumInversion,
     summary: &Summary,
     plots: bool,
 ) -> Result<Vec<PathBuf>> {
     let mut set = OutputSet::new(out);
-    set.add("drt.csv", report::drt_csv(inv))?;
-    set.add("fit.csv", report::fit_csv(spectrum, inv))?;
-    if let Some(l) = report::lambda_csv(inv) {
-        set.add("lambda.csv", l)?;
-    }
+    add_distribution(&mut set, &inv.drt, "Distribution of relaxation times", plots)?;
+    set.add("fit.csv", report::fit_csv(spectrum, &inv.fit))?;
     set.add("summary.json", summary.to_json())?;
     if plots {
-        for (name, bytes) in figures(spectrum, inv)? {
-            set.add(name, bytes)?;
+        let fit = &inv.fit;
+        for (ext, fmt) in FORMATS {
+            set.add(
+                format!("nyquist.{ext}"),
+                plot::render_nyquist(
+                    &plot::NyquistFigure {
+                        z_re_ohm: &spectrum.z_re_ohm,
+                        z_im_ohm: &spectrum.z_im_ohm,
+                        fit_re_ohm: &fit.fit_re_ohm,
+                        fit_im_ohm: &fit.fit_im_ohm,
+                        title: "Nyquist plot: data and DRT fit",
+                    },
+                    fmt,
+                )?,
+            )?;
+            set.add(
+                format!("bode.{ext}"),
+                plot::render_bode(
+                    &plot::BodeFigure {
+                        frequency_hz: &spectrum.frequency_hz,
+                        z_re_ohm: &spectrum.z_re_ohm,
+                        z_im_ohm: &spectrum.z_im_ohm,
+                        fit_re_ohm: &fit.fit_re_ohm,
+                        fit_im_ohm: &fit.fit_im_ohm,
+                        residual_re_rel: &fit.residual_re_rel,
+                        residual_im_rel: &fit.residual_im_rel,
+                        title: "Bode plot and relative residuals",
+                    },
+                    fmt,
+                )?,
+            )?;
         }
     }
     Ok(set.commit()?)
-}
-
-/// Every plot of an inversion as (file name, bytes).
-pub fn figures(spectrum: &Spectrum, inv: &Inversion) -> Result<Vec<(String, Vec<u8>)>> {
-    let peaks: Vec<f64> = inv.peaks.iter().map(|p| p.tau_s).collect();
-    let mut out = Vec::new();
-    for (ext, fmt) in [("svg", ImageFormat::Svg), ("png", ImageFormat::Png)] {
-        out.push((
-            format!("drt.{ext}"),
-            plot::render_drt(
-                &plot::DrtFigure {
-                    tau_s: &inv.tau_s,
-                    gamma: &inv.gamma_ohm,
-                    y_label: "gamma (ohm)",
-                    peaks_tau_s: &peaks,
-                    title: "Distribution of relaxation times",
-                },
-                fmt,
-            )?,
-        ));
-        out.push((
-            format!("nyquist.{ext}"),
-            plot::render_nyquist(
-                &plot::NyquistFigure {
-                    z_re_ohm: &spectrum.z_re_ohm,
-                    z_im_ohm: &spectrum.z_im_ohm,
-                    fit_re_ohm: &inv.fit_re_ohm,
-                    fit_im_ohm: &inv.fit_im_ohm,
-                    title: "Nyquist plot: data and DRT fit",
-                },
-                fmt,
-            )?,
-        ));
-        out.push((
-            format!("bode.{ext}"),
-            plot::render_bode(
-                &plot::BodeFigure {
-                    frequency_hz: &spectrum.frequency_hz,
-                    z_re_ohm: &spectrum.z_re_ohm,
-                    z_im_ohm: &spectrum.z_im_ohm,
-                    fit_re_ohm: &inv.fit_re_ohm,
-                    fit_im_ohm: &inv.fit_im_ohm,
-                    residual_re_rel: &inv.residual_re_rel,
-                    residual_im_rel: &inv.residual_im_rel,
-                    title: "Bode plot and relative residuals",
-                },
-                fmt,
-            )?,
-        ));
-        if let Some(c) = &inv.curves {
-            out.push((format!("lambda.{ext}"), lambda_figure(c, inv.lambda, fmt)?));
-        }
-    }
-    Ok(out)
-}
-
-/// The rule-score figure of any inversion.
-pub fn lambda_figure(c: &LambdaCurves, lambda: f64, fmt: ImageFormat) -> Result<Vec<u8>> {
-    let curves: Vec<plot::LambdaCurve> = c
-        .rules
-        .iter()
-        .map(|r| plot::LambdaCurve {
-            name: r.rule.name(),
-            lambda: &c.lambda,
-            score: &r.score,
-            y_label: match r.rule {
-                LambdaRule::Gcv => "GCV score",
-                LambdaRule::Lcurve => "L-curve curvature",
-                LambdaRule::Discrepancy => "residual / noise",
-                LambdaRule::Recv => "cross-validation score",
-            },
-            log_y: !matches!(r.rule, LambdaRule::Lcurve),
-            chosen_lambda: r.chosen,
-        })
-        .collect();
-    Ok(plot::render_lambda(
-        &plot::LambdaFigure {
-            curves: &curves,
-            selected_lambda: lambda,
-            title: "Choice of the regularisation parameter",
-        },
-        fmt,
-    )?)
 }

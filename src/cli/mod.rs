@@ -3,6 +3,7 @@
 pub mod args;
 pub mod demo;
 pub mod invert;
+pub mod output;
 pub mod transient;
 
 use anyhow::Result;

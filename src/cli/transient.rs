@@ -1,18 +1,18 @@
 //! `taumap transient`: step transient in, distribution, fit, summary and plots out.
 
 use super::args::TransientArgs;
-use super::invert::{default_out_dir, drt_options_from, lambda_figure};
+use super::invert::{default_out_dir, drt_options_from};
+use super::output::{FORMATS, add_distribution, lambda_phrase, print_warnings};
 use anyhow::{Context, Result};
-use std::io::Write;
 use std::path::{Path, PathBuf};
-use taumap::io::transient::{BinOptions, BinnedTransient, read_transient};
+use taumap::io::transient::read_transient;
 use taumap::io::write::OutputSet;
-use taumap::plot::{self, ImageFormat};
-use taumap::report::transient::{self as report, Quantities, TransientSummary};
-use taumap::transient::{
-    DistributionUnit, StepKind, TRANSIENT_PER_DECADE, TransientInversion, TransientParams,
-    invert_transient,
+use taumap::pipeline::binning::{BinOptions, BinnedTransient};
+use taumap::pipeline::{
+    DistributionUnit, StepKind, TRANSIENT_PER_DECADE, TransientParams, invert_transient,
 };
+use taumap::plot;
+use taumap::report::transient::{self as report, Quantities, TransientSummary};
 
 /// The step given on the command line (clap guarantees exactly one).
 fn step_from(a: &TransientArgs) -> StepKind {
@@ -57,20 +57,43 @@ pub fn transient_into(
 ) -> Result<(TransientSummary, Vec<PathBuf>)> {
     // Whole-record problems name the file they came from.
     let inv = invert_transient(record, params).with_context(|| input.display().to_string())?;
-    for w in &inv.warnings {
-        eprintln!("warning: {}: {w}", input.display());
-    }
+    print_warnings(input, &inv.drt);
     let summary = TransientSummary::new(&input.display().to_string(), record, bins, params, &inv);
     let mut set = OutputSet::new(out);
-    set.add("drt.csv", report::drt_csv(&inv))?;
-    set.add("fit.csv", report::fit_csv(&inv))?;
-    if let Some(l) = taumap::report::lambda_table(inv.curves.as_ref()) {
-        set.add("lambda.csv", l)?;
-    }
+    let drt_title = match inv.drt.unit {
+        DistributionUnit::Ohm => "Distribution of relaxation times (from the transient)",
+        DistributionUnit::Siemens => {
+            "Admittance distribution of time constants (not the impedance DRT)"
+        }
+    };
+    add_distribution(&mut set, &inv.drt, drt_title, plots)?;
+    set.add("fit.csv", report::fit_csv(&inv.fit))?;
     set.add("summary.json", summary.to_json())?;
     if plots {
-        for (name, bytes) in figures(&inv)? {
-            set.add(name, bytes)?;
+        let fit = &inv.fit;
+        let (y_label, title) = match fit.step {
+            StepKind::CurrentStep { .. } => ("voltage (V)", "Current step: voltage and fit"),
+            StepKind::Relaxation { .. } => (
+                "voltage (V)",
+                "Relaxation after current interruption: voltage and fit",
+            ),
+            StepKind::VoltageStep { .. } => ("current (A)", "Voltage step: current and fit"),
+        };
+        for (ext, fmt) in FORMATS {
+            set.add(
+                format!("transient.{ext}"),
+                plot::render_transient(
+                    &plot::TransientFigure {
+                        time_s: &fit.time_s,
+                        measured: &fit.measured,
+                        fitted: &fit.fitted,
+                        residual_scale: fit.response_span,
+                        y_label,
+                        title,
+                    },
+                    fmt,
+                )?,
+            )?;
         }
     }
     Ok((summary, set.commit()?))
@@ -83,126 +106,56 @@ pub fn report_run(
     written: &[PathBuf],
     json: bool,
 ) -> Result<()> {
-    let mut stdout = std::io::stdout().lock();
-    if json {
-        stdout.write_all(summary.to_json().as_bytes())?;
-        return Ok(());
-    }
-    let tail = format!(
-        "lambda = {:.3e} ({}), residual rms = {:.3} % of the step response",
-        summary.lambda,
-        summary.lambda_rule,
-        100.0 * summary.residual_rms_rel
-    );
-    match &summary.quantities {
-        Quantities::Ohm {
-            r_inf_ohm,
-            r_pol_ohm,
-            series_capacitance_f,
-            v_inf_v,
-            peaks,
-        } => {
-            let r_inf = r_inf_ohm.map_or("unknown (no baseline)".to_string(), |r| {
-                format!("{r:.6} ohm")
-            });
-            writeln!(
-                stdout,
-                "r_inf = {r_inf}, r_pol = {r_pol_ohm:.6} ohm, {tail}"
-            )?;
-            if let Some(v) = v_inf_v {
-                writeln!(stdout, "final voltage v_inf = {v:.6} V")?;
+    super::output::report_run(json.then(|| summary.to_json()), out, written, |w| {
+        let tail = format!("{} of the step response", lambda_phrase(&summary.fit));
+        match &summary.quantities {
+            Quantities::Ohm {
+                r_inf_ohm,
+                r_pol_ohm,
+                series_capacitance_f,
+                v_inf_v,
+                peaks,
+            } => {
+                let r_inf = r_inf_ohm.map_or("unknown (no baseline)".to_string(), |r| {
+                    format!("{r:.6} ohm")
+                });
+                writeln!(w, "r_inf = {r_inf}, r_pol = {r_pol_ohm:.6} ohm, {tail}")?;
+                if let Some(v) = v_inf_v {
+                    writeln!(w, "final voltage v_inf = {v:.6} V")?;
+                }
+                if let Some(c) = series_capacitance_f {
+                    writeln!(w, "series capacitance = {c:.4e} F")?;
+                }
+                for (i, p) in peaks.iter().enumerate() {
+                    writeln!(
+                        w,
+                        "peak {}: tau = {:.4e} s, r = {:.6} ohm",
+                        i + 1,
+                        p.tau_s,
+                        p.r_ohm
+                    )?;
+                }
             }
-            if let Some(c) = series_capacitance_f {
-                writeln!(stdout, "series capacitance = {c:.4e} F")?;
-            }
-            for (i, p) in peaks.iter().enumerate() {
+            Quantities::Siemens {
+                g_inf_siemens,
+                g_pol_siemens,
+                peaks,
+            } => {
                 writeln!(
-                    stdout,
-                    "peak {}: tau = {:.4e} s, r = {:.6} ohm",
-                    i + 1,
-                    p.tau_s,
-                    p.r_ohm
+                    w,
+                    "g_inf = {g_inf_siemens:.6e} S, g_pol = {g_pol_siemens:.6e} S (admittance distribution), {tail}"
                 )?;
+                for (i, p) in peaks.iter().enumerate() {
+                    writeln!(
+                        w,
+                        "peak {}: tau = {:.4e} s, g = {:.6e} S",
+                        i + 1,
+                        p.tau_s,
+                        p.g_siemens
+                    )?;
+                }
             }
         }
-        Quantities::Siemens {
-            g_inf_siemens,
-            g_pol_siemens,
-            peaks,
-        } => {
-            writeln!(
-                stdout,
-                "g_inf = {g_inf_siemens:.6e} S, g_pol = {g_pol_siemens:.6e} S (admittance distribution), {tail}"
-            )?;
-            for (i, p) in peaks.iter().enumerate() {
-                writeln!(
-                    stdout,
-                    "peak {}: tau = {:.4e} s, g = {:.6e} S",
-                    i + 1,
-                    p.tau_s,
-                    p.g_siemens
-                )?;
-            }
-        }
-    }
-    writeln!(stdout, "wrote {} files to {}", written.len(), out.display())?;
-    Ok(())
-}
-
-/// Every plot of a transient inversion as (file name, bytes).
-pub fn figures(inv: &TransientInversion) -> Result<Vec<(String, Vec<u8>)>> {
-    let peaks: Vec<f64> = inv.peaks.iter().map(|p| p.tau_s).collect();
-    let (y_label, drt_label, title) = match inv.step {
-        StepKind::CurrentStep { .. } => (
-            "voltage (V)",
-            "gamma (ohm)",
-            "Current step: voltage and fit",
-        ),
-        StepKind::Relaxation { .. } => (
-            "voltage (V)",
-            "gamma (ohm)",
-            "Relaxation after current interruption: voltage and fit",
-        ),
-        StepKind::VoltageStep { .. } => ("current (A)", "g (S)", "Voltage step: current and fit"),
-    };
-    let drt_title = match inv.unit {
-        DistributionUnit::Ohm => "Distribution of relaxation times (from the transient)",
-        DistributionUnit::Siemens => {
-            "Admittance distribution of time constants (not the impedance DRT)"
-        }
-    };
-    let mut out = Vec::new();
-    for (ext, fmt) in [("svg", ImageFormat::Svg), ("png", ImageFormat::Png)] {
-        out.push((
-            format!("transient.{ext}"),
-            plot::render_transient(
-                &plot::TransientFigure {
-                    time_s: &inv.time_s,
-                    measured: &inv.measured,
-                    fitted: &inv.fitted,
-                    residual_scale: inv.response_span,
-                    y_label,
-                    title,
-                },
-                fmt,
-            )?,
-        ));
-        out.push((
-            format!("drt.{ext}"),
-            plot::render_drt(
-                &plot::DrtFigure {
-                    tau_s: &inv.tau_s,
-                    gamma: &inv.distribution,
-                    y_label: drt_label,
-                    peaks_tau_s: &peaks,
-                    title: drt_title,
-                },
-                fmt,
-            )?,
-        ));
-        if let Some(c) = &inv.curves {
-            out.push((format!("lambda.{ext}"), lambda_figure(c, inv.lambda, fmt)?));
-        }
-    }
-    Ok(out)
+        Ok(())
+    })
 }

@@ -19,6 +19,7 @@
 use super::quadrature::gauss_legendre;
 use crate::grid::TauGrid;
 use crate::{Error, Result};
+use crate::linalg::Matrix;
 use nalgebra::DMatrix;
 use std::f64::consts::PI;
 
@@ -138,21 +139,23 @@ impl Basis {
         debug_assert_eq!(coeffs.len(), self.len());
         let reach = self.half_support();
         y.iter()
-            .map(|&yy| {
-                // Centres are uniform: visit only those within reach.
-                let lo = ((yy - reach - self.centers[0]) / self.step)
-                    .floor()
-                    .max(0.0) as usize;
-                let hi = (((yy + reach - self.centers[0]) / self.step).ceil() as isize)
-                    .clamp(-1, self.len() as isize - 1);
-                if hi < 0 {
-                    return 0.0;
-                }
-                (lo..=hi as usize)
+            .map(|&yy| match self.reach(yy, reach) {
+                Some((lo, hi)) => (lo..=hi)
                     .map(|j| coeffs[j] * self.shape(yy - self.centers[j]))
-                    .sum()
+                    .sum(),
+                None => 0.0,
             })
             .collect()
+    }
+
+    /// The range `lo..=hi` of basis functions whose centres lie within
+    /// about `reach` of `y` (centres are uniform, so only those are
+    /// visited), or `None` when there are none.
+    pub(crate) fn reach(&self, y: f64, reach: f64) -> Option<(usize, usize)> {
+        let lo = ((y - reach - self.centers[0]) / self.step).floor().max(0.0) as usize;
+        let hi = (((y + reach - self.centers[0]) / self.step).ceil() as isize)
+            .clamp(-1, self.len() as isize - 1);
+        (hi >= 0).then_some((lo, hi as usize))
     }
 
     /// Quadrature offsets `(u_k, w_k)` such that for smooth `g`,
@@ -205,7 +208,12 @@ impl Basis {
     /// stiffness matrix `(1/dy) [2, -1]` (k = 1); k = 2 does not exist for
     /// piecewise-linear functions (their second derivative is a sum of Dirac
     /// deltas) and is refused.
-    pub fn gram(&self, order: usize) -> Result<DMatrix<f64>> {
+    pub fn gram(&self, order: usize) -> Result<Matrix> {
+        self.gram_dense(order).map(Matrix)
+    }
+
+    /// [`Basis::gram`] as the inner matrix type.
+    pub(crate) fn gram_dense(&self, order: usize) -> Result<DMatrix<f64>> {
         let n = self.len();
         match (self.kind, order) {
             (BasisKind::Gaussian, 0..=2) => {

@@ -14,18 +14,30 @@
 //! `K_ij = sum_k w_k g(x + u_k)` with one set of quadrature offsets.
 
 use super::Basis;
+use crate::linalg::Matrix;
 use nalgebra::DMatrix;
 
 /// Kernel blocks for a set of angular frequencies.
 #[derive(Clone, Debug)]
 pub struct ImpedanceKernel {
     /// Real part, `m x n` (frequencies x basis functions), in ohm per unit coefficient.
-    pub re: DMatrix<f64>,
+    pub(crate) re: DMatrix<f64>,
     /// Imaginary part, `m x n`, carrying its physical (negative) sign.
-    pub im: DMatrix<f64>,
+    pub(crate) im: DMatrix<f64>,
 }
 
 impl ImpedanceKernel {
+    /// Real part, `m x n` (frequencies x basis functions), in ohm per unit
+    /// coefficient.
+    pub fn re(&self) -> Matrix {
+        Matrix(self.re.clone())
+    }
+
+    /// Imaginary part, `m x n`, carrying its physical (negative) sign.
+    pub fn im(&self) -> Matrix {
+        Matrix(self.im.clone())
+    }
+
     /// Builds both blocks by quadrature (see [`Basis::quadrature_offsets`]).
     pub fn new(basis: &Basis, omega_rad_s: &[f64]) -> Self {
         let m = omega_rad_s.len();

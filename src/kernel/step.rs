@@ -28,6 +28,7 @@
 //! neglected fourth-order term is below 1e-6 of the step.
 
 use super::Basis;
+use crate::linalg::Matrix;
 use nalgebra::DMatrix;
 
 /// Which response a column describes.
@@ -42,7 +43,12 @@ pub enum StepShape {
 /// Builds the `m x n` kernel (times x basis functions) for samples or bins
 /// with mean times `time_s` (> 0) and within-bin time variances
 /// `time_var_s2` (0 for single samples).
-pub fn step_kernel(
+pub fn step_kernel(basis: &Basis, shape: StepShape, time_s: &[f64], time_var_s2: &[f64]) -> Matrix {
+    Matrix(step_kernel_dense(basis, shape, time_s, time_var_s2))
+}
+
+/// [`step_kernel`] as the inner matrix type.
+pub(crate) fn step_kernel_dense(
     basis: &Basis,
     shape: StepShape,
     time_s: &[f64],
@@ -206,7 +212,7 @@ mod tests {
             let want = e1(ti * (-y1).exp()) - e1(ti * (-y0).exp())
                 + taper(y0 - h, true)
                 + taper(y1, false);
-            let got: f64 = k.row(i).iter().sum();
+            let got: f64 = (0..k.ncols()).map(|j| k[(i, j)]).sum();
             assert!((got - want).abs() < 1e-7, "row {i}: {got} vs {want}");
         }
     }

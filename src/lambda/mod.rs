@@ -26,7 +26,7 @@ pub mod gcv;
 pub mod lcurve;
 pub mod recv;
 
-use crate::solve::{SolveStatus, Tikhonov, TikhonovSolution};
+use crate::solve::{Tikhonov, TikhonovSolution};
 use crate::{Error, Result};
 
 /// A rule for choosing `lambda`.
@@ -169,9 +169,10 @@ pub struct LambdaPath {
 
 impl LambdaPath {
     /// Solves at every grid value, from the largest `lambda` down, each solve
-    /// warm-started from the free set of the previous one.
-    pub fn trace(problem: &Tikhonov, lambdas: &[f64]) -> Self {
-        let mut points = problem.sweep(lambdas, |solution| {
+    /// warm-started from the free set of the previous one (the first from
+    /// `warm`).
+    pub fn trace(problem: &Tikhonov, lambdas: &[f64], warm: &[usize]) -> Self {
+        let mut points = problem.sweep(lambdas, warm, |solution| {
             let dof = problem.influence_trace(solution.lambda, &solution.free);
             PathPoint { solution, dof }
         });
@@ -187,12 +188,6 @@ impl LambdaPath {
         self.points.iter().map(|p| p.solution.lambda).collect()
     }
 
-    /// Whether every solve converged.
-    pub fn all_converged(&self) -> bool {
-        self.points
-            .iter()
-            .all(|p| p.solution.status == SolveStatus::Converged)
-    }
 }
 
 /// A rule's curve over the path and its choice.
@@ -271,3 +266,5 @@ mod tests {
         assert!((refine_parabola(&l, &s, i).log10() - 0.3).abs() < 1e-12);
     }
 }
+#[cfg(test)]
+mod reference_tests;

@@ -1,7 +1,8 @@
 //! Real-imaginary cross-validation: fit one block of equations, predict the other.
 
 use super::{LambdaRule, RuleCurve, argmin, refine_parabola};
-use crate::solve::{Tikhonov, nnls_normal};
+use crate::solve::Tikhonov;
+use crate::solve::nnls::{NnlsParams, nnls_dense};
 use nalgebra::DVector;
 
 /// Cross-validation score between two blocks of rows (for a spectrum: the
@@ -51,17 +52,19 @@ fn one_way(
     let test = problem.rows(test_rows);
     let n = problem.ncols();
     let hidden: Vec<usize> = (0..n)
-        .filter(|&j| fit.design().column(j).amax() == 0.0 && test.design().column(j).amax() > 0.0)
+        .filter(|&j| {
+            fit.design_dense().column(j).amax() == 0.0 && test.design_dense().column(j).amax() > 0.0
+        })
         .collect();
-    let h = test.design().select_columns(&hidden);
+    let h = test.design_dense().select_columns(&hidden);
     let hth = h.tr_mul(&h);
-    fit.sweep(lambdas, |s| {
+    fit.sweep(lambdas, &[], |s| {
         let pred = DVector::from_vec(test.predict(&s.x));
-        let r: DVector<f64> = test.rhs() - pred;
+        let r: DVector<f64> = DVector::from_column_slice(test.rhs()) - pred;
         if hidden.is_empty() {
             r.norm_squared()
         } else {
-            let y = nnls_normal(&hth, &h.tr_mul(&r), &[]).x;
+            let y = nnls_dense(&hth, h.tr_mul(&r).as_slice(), &[], &NnlsParams::default()).x;
             (r - &h * DVector::from_vec(y)).norm_squared()
         }
     })

@@ -149,3 +149,62 @@ pub struct TransientFigure<'a> {
     /// Figure title; empty for none.
     pub title: &'a str,
 }
+
+/// The DRT figure of any inversion's distribution (its unit in the axis
+/// label, its peaks marked).
+pub fn render_distribution(
+    drt: &crate::pipeline::Distribution,
+    title: &str,
+    format: ImageFormat,
+) -> crate::Result<Vec<u8>> {
+    let peaks: Vec<f64> = drt.peaks.iter().map(|p| p.tau_s).collect();
+    let y_label = match drt.unit {
+        crate::pipeline::DistributionUnit::Ohm => "gamma (ohm)",
+        crate::pipeline::DistributionUnit::Siemens => "g (S)",
+    };
+    render_drt(
+        &DrtFigure {
+            tau_s: &drt.tau_s,
+            gamma: &drt.gamma,
+            y_label,
+            peaks_tau_s: &peaks,
+            title,
+        },
+        format,
+    )
+}
+
+/// The rule-score figure of any inversion whose lambda was chosen by a
+/// rule; `None` when it was fixed.
+pub fn render_lambda_selection(
+    selection: &crate::pipeline::LambdaSelection,
+    format: ImageFormat,
+) -> Option<crate::Result<Vec<u8>>> {
+    use crate::lambda::LambdaRule;
+    let c = selection.curves.as_ref()?;
+    let curves: Vec<LambdaCurve> = c
+        .rules
+        .iter()
+        .map(|r| LambdaCurve {
+            name: r.rule.name(),
+            lambda: &c.lambda,
+            score: &r.score,
+            y_label: match r.rule {
+                LambdaRule::Gcv => "GCV score",
+                LambdaRule::Lcurve => "L-curve curvature",
+                LambdaRule::Discrepancy => "residual / noise",
+                LambdaRule::Recv => "cross-validation score",
+            },
+            log_y: !matches!(r.rule, LambdaRule::Lcurve),
+            chosen_lambda: r.chosen,
+        })
+        .collect();
+    Some(render_lambda(
+        &LambdaFigure {
+            curves: &curves,
+            selected_lambda: selection.lambda,
+            title: "Choice of the regularisation parameter",
+        },
+        format,
+    ))
+}

@@ -6,17 +6,21 @@
 //! - `lambda.csv`: one row per grid value of lambda, one column per computed rule
 //! - `summary.json`: see [`Summary`]
 //!
-//! The outputs of a step transient are in [`transient`].
+//! The outputs of a step transient are in [`transient`]. Both take the one
+//! result type [`Distribution`]: `drt.csv`, `lambda.csv` and the shared
+//! parts of `summary.json` are written by the same code for both.
 
 pub mod transient;
 
 use crate::grid::TauGrid;
-use crate::invert::{Inversion, InvertParams};
 use crate::io::Spectrum;
-use crate::lambda::LambdaCurves;
-use crate::lambda::LambdaRule;
+use crate::lambda::{LambdaCurves, LambdaRule};
 use crate::peaks::Peak;
-use crate::regularise::DrtOptions;
+use crate::pipeline::{
+    Distribution, DrtOptions, GridEdge, InvertParams, LambdaSelection, SolveInfo, SpectrumFit,
+    SpectrumInversion,
+};
+use crate::solve::SolveStatus;
 use serde::Serialize;
 use std::fmt::Write as _;
 
@@ -29,17 +33,18 @@ pub fn num(v: f64) -> String {
     }
 }
 
-/// `drt.csv`.
-pub fn drt_csv(inv: &Inversion) -> String {
-    let mut s = String::from("tau_s,gamma_ohm\n");
-    for (t, g) in inv.tau_s.iter().zip(&inv.gamma_ohm) {
+/// `drt.csv`: `tau_s,gamma_ohm` (or `gamma_siemens` for the admittance
+/// distribution of a voltage step).
+pub fn drt_csv(drt: &Distribution) -> String {
+    let mut s = format!("tau_s,gamma_{}\n", drt.unit.name());
+    for (t, g) in drt.tau_s.iter().zip(&drt.gamma) {
         let _ = writeln!(s, "{},{}", num(*t), num(*g));
     }
     s
 }
 
-/// `fit.csv`.
-pub fn fit_csv(spectrum: &Spectrum, inv: &Inversion) -> String {
+/// `fit.csv` of a spectrum.
+pub fn fit_csv(spectrum: &Spectrum, fit: &SpectrumFit) -> String {
     let mut s = String::from(
         "frequency_hz,z_re_ohm,z_im_ohm,fit_re_ohm,fit_im_ohm,residual_re_rel,residual_im_rel\n",
     );
@@ -50,10 +55,10 @@ pub fn fit_csv(spectrum: &Spectrum, inv: &Inversion) -> String {
             num(spectrum.frequency_hz[i]),
             num(spectrum.z_re_ohm[i]),
             num(spectrum.z_im_ohm[i]),
-            num(inv.fit_re_ohm[i]),
-            num(inv.fit_im_ohm[i]),
-            num(inv.residual_re_rel[i]),
-            num(inv.residual_im_rel[i]),
+            num(fit.fit_re_ohm[i]),
+            num(fit.fit_im_ohm[i]),
+            num(fit.residual_re_rel[i]),
+            num(fit.residual_im_rel[i]),
         );
     }
     s
@@ -69,14 +74,9 @@ pub fn rule_column(rule: LambdaRule) -> &'static str {
     }
 }
 
-/// `lambda.csv`, or `None` when lambda was fixed.
-pub fn lambda_csv(inv: &Inversion) -> Option<String> {
-    lambda_table(inv.curves.as_ref())
-}
-
-/// `lambda.csv` from any inversion's rule curves, or `None` without curves.
-pub fn lambda_table(curves: Option<&LambdaCurves>) -> Option<String> {
-    let c = curves?;
+/// `lambda.csv` of any inversion, or `None` when lambda was fixed.
+pub fn lambda_csv(selection: &LambdaSelection) -> Option<String> {
+    let c = selection.curves.as_ref()?;
     let mut s = String::from("lambda,residual_sq,penalty_sq,dof");
     for r in &c.rules {
         s.push(',');
@@ -182,7 +182,69 @@ pub struct Settings {
     pub series_capacitance_modelled: bool,
 }
 
-/// `summary.json`.
+/// How lambda was chosen, as every `summary.json` reports it.
+#[derive(Clone, Debug, Serialize)]
+pub struct LambdaSummary {
+    /// The lambda used.
+    pub lambda: f64,
+    /// The rule that chose it, or "fixed".
+    pub lambda_rule: String,
+    /// Whether the rule's choice was raised to the floor.
+    pub lambda_floored: bool,
+    /// The end of the lambda grid the rule's choice sits on ("lower",
+    /// "upper"), or null inside the grid and for a fixed lambda.
+    pub lambda_grid_edge: Option<GridEdge>,
+    /// Every computed rule's own choice.
+    pub lambda_candidates: Vec<RuleChoice>,
+}
+
+impl LambdaSummary {
+    /// The summary of a lambda selection.
+    pub fn new(s: &LambdaSelection) -> Self {
+        Self {
+            lambda: s.lambda,
+            lambda_rule: rule_label(s.rule),
+            lambda_floored: s.floored,
+            lambda_grid_edge: s.grid_edge,
+            lambda_candidates: candidates(s.curves.as_ref()),
+        }
+    }
+}
+
+/// The fields every `summary.json` ends with, after its own quantities.
+#[derive(Clone, Debug, Serialize)]
+pub struct FitSummary {
+    /// How lambda was chosen.
+    #[serde(flatten)]
+    pub lambda: LambdaSummary,
+    /// RMS of the relative residuals (fraction).
+    pub residual_rms_rel: f64,
+}
+
+/// Solver diagnostics, as every `summary.json` reports them.
+#[derive(Clone, Debug, Serialize)]
+pub struct SolverSummary {
+    /// Whether the solver met its optimality conditions (`converged`), or
+    /// how it failed.
+    pub solver_status: SolveStatus,
+    /// Iterations, path status, KKT residual, shift, problem size.
+    pub solver: SolveInfo,
+    /// Doubts about the input or the result; empty when none.
+    pub warnings: Vec<String>,
+}
+
+impl SolverSummary {
+    /// The diagnostics and warnings of a distribution.
+    pub fn new(drt: &Distribution) -> Self {
+        Self {
+            solver_status: drt.info.status,
+            solver: drt.info,
+            warnings: drt.warnings.clone(),
+        }
+    }
+}
+
+/// `summary.json` of a spectrum.
 #[derive(Clone, Debug, Serialize)]
 pub struct Summary {
     /// Input file as given.
@@ -197,46 +259,45 @@ pub struct Summary {
     pub inductance_h: Option<f64>,
     /// Series capacitance (F), or null when not modelled.
     pub series_capacitance_f: Option<f64>,
-    /// The lambda used.
-    pub lambda: f64,
-    /// The rule that chose it, or "fixed".
-    pub lambda_rule: String,
-    /// Whether the rule's choice was raised to the floor.
-    pub lambda_floored: bool,
-    /// Every computed rule's own choice.
-    pub lambda_candidates: Vec<RuleChoice>,
-    /// RMS of the relative residuals (fraction).
-    pub residual_rms_rel: f64,
+    /// Lambda and residual.
+    #[serde(flatten)]
+    pub fit: FitSummary,
     /// Peaks in ascending tau.
     pub peaks: Vec<PeakSummary>,
-    /// Whether the solver met its optimality conditions.
-    pub solver_status: crate::solve::SolveStatus,
+    /// Solver status, diagnostics and warnings.
+    #[serde(flatten)]
+    pub solver: SolverSummary,
     /// Settings used.
     pub settings: Settings,
 }
 
 impl Summary {
     /// Collects the summary of an inversion.
-    pub fn new(input: &str, spectrum: &Spectrum, params: &InvertParams, inv: &Inversion) -> Self {
+    pub fn new(
+        input: &str,
+        spectrum: &Spectrum,
+        params: &InvertParams,
+        inv: &SpectrumInversion,
+    ) -> Self {
+        let drt = &inv.drt;
         Self {
             input: input.to_string(),
             n_points: spectrum.len(),
-            r_inf_ohm: inv.r_inf_ohm,
-            r_pol_ohm: inv.r_pol_ohm,
-            inductance_h: inv.inductance_h,
-            series_capacitance_f: inv.series_capacitance_f.filter(|c| c.is_finite()),
-            lambda: inv.lambda,
-            lambda_rule: rule_label(inv.lambda_rule),
-            lambda_floored: inv.lambda_floored,
-            lambda_candidates: candidates(inv.curves.as_ref()),
-            residual_rms_rel: inv.residual_rms_rel,
-            peaks: inv.peaks.iter().map(PeakSummary::from).collect(),
-            solver_status: inv.info.status,
+            r_inf_ohm: drt.series.instantaneous.unwrap_or(0.0),
+            r_pol_ohm: drt.total,
+            inductance_h: drt.series.inductance_h,
+            series_capacitance_f: drt.series.series_capacitance_f.filter(|c| c.is_finite()),
+            fit: FitSummary {
+                lambda: LambdaSummary::new(&drt.lambda),
+                residual_rms_rel: drt.residual_rms_rel,
+            },
+            peaks: drt.peaks.iter().map(PeakSummary::from).collect(),
+            solver: SolverSummary::new(drt),
             settings: Settings {
-                drt: DrtSettings::new(&params.drt, &inv.grid),
+                drt: DrtSettings::new(&params.drt, &drt.grid),
                 weighting: format!("{:?}", params.weighting).to_lowercase(),
-                inductance_modelled: inv.inductance_h.is_some(),
-                series_capacitance_modelled: inv.series_capacitance_f.is_some(),
+                inductance_modelled: drt.series.inductance_h.is_some(),
+                series_capacitance_modelled: drt.series.series_capacitance_f.is_some(),
             },
         }
     }

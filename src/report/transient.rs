@@ -12,31 +12,14 @@
 //! - `lambda.csv`: as for spectra
 //! - `summary.json`: see [`TransientSummary`]
 
-use super::{DrtSettings, RuleChoice, candidates, num, rule_label};
-use crate::io::transient::{BinOptions, BinnedTransient, Quantity};
-use crate::solve::SolveStatus;
-use crate::transient::{
-    BaselineSource, DistributionUnit, StepKind, TransientInversion, TransientParams,
+use super::{DrtSettings, FitSummary, LambdaSummary, SolverSummary, num};
+use crate::io::transient::Quantity;
+use crate::pipeline::binning::{BinOptions, BinnedTransient};
+use crate::pipeline::{
+    BaselineSource, DistributionUnit, StepKind, TransientFit, TransientInversion, TransientParams,
 };
 use serde::Serialize;
 use std::fmt::Write as _;
-
-/// Column name of the distribution in `drt.csv`.
-pub fn distribution_column(unit: DistributionUnit) -> &'static str {
-    match unit {
-        DistributionUnit::Ohm => "gamma_ohm",
-        DistributionUnit::Siemens => "gamma_siemens",
-    }
-}
-
-/// `drt.csv` of a transient.
-pub fn drt_csv(inv: &TransientInversion) -> String {
-    let mut s = format!("tau_s,{}\n", distribution_column(inv.unit));
-    for (t, g) in inv.tau_s.iter().zip(&inv.distribution) {
-        let _ = writeln!(s, "{},{}", num(*t), num(*g));
-    }
-    s
-}
 
 /// Unit suffix of the measured quantity: `v` or `a`.
 fn measured_suffix(step: StepKind) -> &'static str {
@@ -47,7 +30,7 @@ fn measured_suffix(step: StepKind) -> &'static str {
 }
 
 /// `fit.csv` of a transient.
-pub fn fit_csv(inv: &TransientInversion) -> String {
+pub fn fit_csv(inv: &TransientFit) -> String {
     let u = measured_suffix(inv.step);
     let mut s = format!("time_s,measured_{u},fitted_{u},residual_{u},samples\n");
     for i in 0..inv.time_s.len() {
@@ -154,20 +137,13 @@ pub struct TransientSummary {
     /// Fitted quantities and peaks.
     #[serde(flatten)]
     pub quantities: Quantities,
-    /// The lambda used.
-    pub lambda: f64,
-    /// The rule that chose it, or "fixed".
-    pub lambda_rule: String,
-    /// Whether the rule's choice was raised to the floor.
-    pub lambda_floored: bool,
-    /// Every computed rule's own choice.
-    pub lambda_candidates: Vec<RuleChoice>,
-    /// RMS over the bins of the residual relative to the step response.
-    pub residual_rms_rel: f64,
-    /// Whether the solver met its optimality conditions.
-    pub solver_status: SolveStatus,
-    /// Doubts about the input (e.g. a sign that looks wrong); empty when none.
-    pub warnings: Vec<String>,
+    /// Lambda and residual (relative to the step response).
+    #[serde(flatten)]
+    pub fit: FitSummary,
+    /// Solver status, diagnostics and warnings (e.g. a sign that looks
+    /// wrong).
+    #[serde(flatten)]
+    pub solver: SolverSummary,
     /// Settings used.
     pub settings: TransientSettings,
 }
@@ -181,13 +157,14 @@ impl TransientSummary {
         params: &TransientParams,
         inv: &TransientInversion,
     ) -> Self {
-        let quantities = match inv.unit {
+        let drt = &inv.drt;
+        let quantities = match drt.unit {
             DistributionUnit::Ohm => Quantities::Ohm {
-                r_inf_ohm: inv.instantaneous,
-                r_pol_ohm: inv.total,
-                series_capacitance_f: inv.series_capacitance_f.filter(|c| c.is_finite()),
-                v_inf_v: inv.final_value,
-                peaks: inv
+                r_inf_ohm: drt.series.instantaneous,
+                r_pol_ohm: drt.total,
+                series_capacitance_f: drt.series.series_capacitance_f.filter(|c| c.is_finite()),
+                v_inf_v: inv.fit.final_value,
+                peaks: drt
                     .peaks
                     .iter()
                     .map(|p| OhmPeak {
@@ -198,9 +175,9 @@ impl TransientSummary {
                     .collect(),
             },
             DistributionUnit::Siemens => Quantities::Siemens {
-                g_inf_siemens: inv.instantaneous.unwrap_or(0.0),
-                g_pol_siemens: inv.total,
-                peaks: inv
+                g_inf_siemens: drt.series.instantaneous.unwrap_or(0.0),
+                g_pol_siemens: drt.total,
+                peaks: drt
                     .peaks
                     .iter()
                     .map(|p| SiemensPeak {
@@ -213,24 +190,22 @@ impl TransientSummary {
         };
         Self {
             input: input.to_string(),
-            step: inv.step,
-            unit: inv.unit,
+            step: inv.fit.step,
+            unit: drt.unit,
             n_samples: record.response_samples,
             n_bins: record.bins.len(),
             n_pre_step: record.pre_step_samples,
             n_skipped_early: record.early_samples,
-            baseline: inv.baseline,
-            baseline_source: inv.baseline_source,
+            baseline: inv.fit.baseline,
+            baseline_source: inv.fit.baseline_source,
             quantities,
-            lambda: inv.lambda,
-            lambda_rule: rule_label(inv.lambda_rule),
-            lambda_floored: inv.lambda_floored,
-            lambda_candidates: candidates(inv.curves.as_ref()),
-            residual_rms_rel: inv.residual_rms_rel,
-            solver_status: inv.info.status,
-            warnings: inv.warnings.clone(),
+            fit: FitSummary {
+                lambda: LambdaSummary::new(&drt.lambda),
+                residual_rms_rel: drt.residual_rms_rel,
+            },
+            solver: SolverSummary::new(drt),
             settings: TransientSettings {
-                drt: DrtSettings::new(&params.drt, &inv.grid),
+                drt: DrtSettings::new(&params.drt, &drt.grid),
                 bins_per_decade: bins.bins_per_decade,
                 fit_start_s: bins.fit_start_s,
                 step_time_s: bins.step_time_s,

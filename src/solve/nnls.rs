@@ -19,6 +19,7 @@
 //! - R. Bro, S. de Jong (1997), "A fast non-negativity-constrained least squares
 //!   algorithm", J. Chemometrics 11, 393-401.
 
+use crate::linalg::Matrix;
 use nalgebra::{DMatrix, DVector};
 
 /// How an iterative solve ended.
@@ -29,19 +30,62 @@ pub enum SolveStatus {
     Converged,
     /// Iteration limit reached; the result is the last feasible iterate.
     MaxIterations,
+    /// `Q` or `c` holds a NaN or an infinity; the result is all zeros.
+    NonFinite,
+    /// The objective decreases without bound along a feasible direction
+    /// (a column of `Q` with zero curvature and positive gradient).
+    Unbounded,
+    /// A subproblem was numerically singular and was solved with a diagonal
+    /// shift (reported in [`NnlsInfo::shift`]); the result is optimal for the
+    /// shifted problem.
+    Degenerate,
 }
 
-/// Result of [`nnls_normal`].
+/// Tolerances and limits of [`nnls`].
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct NnlsParams {
+    /// Absolute tolerance on the gradient of a bound variable.
+    pub abs_tol: f64,
+    /// Tolerance relative to `max(|c|_inf, max_j Q_jj)`.
+    pub rel_tol: f64,
+    /// Active-set changes before giving up; `None` means `5 n + 20`.
+    pub max_iter: Option<usize>,
+}
+
+impl Default for NnlsParams {
+    /// `abs_tol = 0`, `rel_tol = 1e-12`, `max_iter = 5 n + 20`.
+    fn default() -> Self {
+        Self {
+            abs_tol: 0.0,
+            rel_tol: 1e-12,
+            max_iter: None,
+        }
+    }
+}
+
+/// Diagnostics of one [`nnls`] solve.
+#[derive(Clone, Copy, Debug, PartialEq, serde::Serialize)]
+pub struct NnlsInfo {
+    /// Number of passive-set changes.
+    pub iterations: usize,
+    /// How the solve ended.
+    pub status: SolveStatus,
+    /// Largest violation of the KKT conditions at the returned point,
+    /// `max_j max(-x_j, -g_j, |x_j g_j|^(1/2))` with `g = Qx - c`.
+    pub kkt_residual: f64,
+    /// Largest diagonal shift applied to a singular subproblem (0 when none).
+    pub shift: f64,
+}
+
+/// Result of [`nnls`].
 #[derive(Clone, Debug)]
 pub struct NnlsSolution {
     /// The minimiser, `x >= 0`.
     pub x: Vec<f64>,
     /// Indices of the passive (free, positive) variables, ascending.
     pub passive: Vec<usize>,
-    /// Number of passive-set changes.
-    pub iterations: usize,
-    /// Whether the optimality conditions were met.
-    pub status: SolveStatus,
+    /// Iterations, status, KKT residual.
+    pub info: NnlsInfo,
 }
 
 /// Solves `min 1/2 x'Qx - c'x` subject to `x >= 0`.
@@ -50,14 +94,25 @@ pub struct NnlsSolution {
 /// neighbouring regularisation parameter); pass `&[]` for a cold start.
 /// Dual feasibility is accepted when every gradient component of a bound
 /// variable satisfies `c_j - (Qx)_j <= tol`, with
-/// `tol = 1e-12 max(|c|_inf, max_j Q_jj)`.
-pub fn nnls_normal(q: &DMatrix<f64>, c: &DVector<f64>, warm: &[usize]) -> NnlsSolution {
+/// `tol = abs_tol + rel_tol max(|c|_inf, max_j Q_jj)`.
+pub fn nnls(q: &Matrix, c: &[f64], warm: &[usize], params: &NnlsParams) -> NnlsSolution {
+    nnls_dense(q.dense(), c, warm, params)
+}
+
+/// [`nnls`] on the inner matrix type.
+pub(crate) fn nnls_dense(
+    q: &DMatrix<f64>,
+    c: &[f64],
+    warm: &[usize],
+    params: &NnlsParams,
+) -> NnlsSolution {
+    let c = DVector::from_column_slice(c);
     let n = c.len();
     debug_assert_eq!(q.nrows(), n);
     debug_assert_eq!(q.ncols(), n);
     let scale = c.amax().max(q.diagonal().amax()).max(f64::MIN_POSITIVE);
-    let tol = 1e-12 * scale;
-    let max_iter = 5 * n + 20;
+    let tol = params.abs_tol + params.rel_tol * scale;
+    let max_iter = params.max_iter.unwrap_or(5 * n + 20);
 
     let mut passive = vec![false; n];
     for &i in warm {
@@ -75,7 +130,7 @@ pub fn nnls_normal(q: &DMatrix<f64>, c: &DVector<f64>, warm: &[usize]) -> NnlsSo
         if set.is_empty() {
             break;
         }
-        let s = chol.refactor_and_solve(q, c, &set);
+        let s = chol.refactor_and_solve(q, &c, &set);
         let mut pruned = false;
         for (k, &i) in set.iter().enumerate() {
             if s[k] <= 0.0 {
@@ -94,7 +149,7 @@ pub fn nnls_normal(q: &DMatrix<f64>, c: &DVector<f64>, warm: &[usize]) -> NnlsSo
     }
     if !chol.matches(&passive) {
         let set: Vec<usize> = (0..n).filter(|&i| passive[i]).collect();
-        chol.refactor_and_solve(q, c, &set);
+        chol.refactor_and_solve(q, &c, &set);
     }
 
     let mut status = SolveStatus::Converged;
@@ -123,7 +178,7 @@ pub fn nnls_normal(q: &DMatrix<f64>, c: &DVector<f64>, warm: &[usize]) -> NnlsSo
         passive[t] = true;
         iterations += 1;
         let mut s = if chol.append(q, t) {
-            chol.solve(c)
+            chol.solve(&c)
         } else {
             // Numerically dependent column: keep it out.
             passive[t] = false;
@@ -178,7 +233,7 @@ pub fn nnls_normal(q: &DMatrix<f64>, c: &DVector<f64>, warm: &[usize]) -> NnlsSo
                 blocked = Some(t);
             }
             let keep: Vec<usize> = set.iter().copied().filter(|&i| passive[i]).collect();
-            s = chol.refactor_and_solve(q, c, &keep);
+            s = chol.refactor_and_solve(q, &c, &keep);
             if iterations >= max_iter {
                 break;
             }
@@ -188,8 +243,12 @@ pub fn nnls_normal(q: &DMatrix<f64>, c: &DVector<f64>, warm: &[usize]) -> NnlsSo
     NnlsSolution {
         x: x.iter().map(|v| v.max(0.0)).collect(),
         passive: passive_idx,
-        iterations,
-        status,
+        info: NnlsInfo {
+            iterations,
+            status,
+            kkt_residual: 0.0,
+            shift: 0.0,
+        },
     }
 }
 
@@ -350,6 +409,10 @@ mod tests {
     use super::*;
     use proptest::prelude::*;
 
+    fn nnls_normal(q: &DMatrix<f64>, c: &DVector<f64>, warm: &[usize]) -> NnlsSolution {
+        nnls_dense(q, c.as_slice(), warm, &NnlsParams::default())
+    }
+
     fn problem(a: &DMatrix<f64>, b: &DVector<f64>) -> (DMatrix<f64>, DVector<f64>) {
         (a.transpose() * a, a.transpose() * b)
     }
@@ -379,7 +442,7 @@ mod tests {
         assert!((s.x[0] - 1.0).abs() < 1e-14);
         assert_eq!(s.x[1], 0.0);
         assert_eq!(s.passive, vec![0]);
-        assert_eq!(s.status, SolveStatus::Converged);
+        assert_eq!(s.info.status, SolveStatus::Converged);
     }
 
     #[test]
@@ -426,7 +489,7 @@ mod tests {
             // small ridge keeps rank-deficient draws (m < n) well posed
             for i in 0..n { q[(i, i)] += 1e-6; }
             let s = nnls_normal(&q, &c, &[]);
-            prop_assert_eq!(s.status, SolveStatus::Converged);
+            prop_assert_eq!(s.info.status, SolveStatus::Converged);
             assert_kkt(&q, &c, &s.x);
         }
     }

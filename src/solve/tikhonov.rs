@@ -12,18 +12,26 @@
 //! - P. C. Hansen (1998), *Rank-Deficient and Discrete Ill-Posed Problems*,
 //!   SIAM, chapter 5 (general-form Tikhonov regularisation).
 
-use super::nnls::{SolveStatus, nnls_normal, solve_subset};
+use super::nnls::{NnlsInfo, NnlsParams, nnls_dense, solve_subset};
+use crate::linalg::Matrix;
 use nalgebra::{DMatrix, DVector};
+use std::sync::Arc;
 
 /// A regularised least-squares problem ready for repeated solves.
+///
+/// The design matrix, its cross product, the penalty and the prior are held
+/// behind shared pointers: an inversion plan ([`crate::pipeline::Plan`])
+/// prepares them once and every response on the same axis reuses them.
 #[derive(Clone, Debug)]
 pub struct Tikhonov {
-    a: DMatrix<f64>,
+    a: Arc<DMatrix<f64>>,
     b: DVector<f64>,
-    ata: DMatrix<f64>,
+    ata: Arc<DMatrix<f64>>,
     atb: DVector<f64>,
-    penalty: DMatrix<f64>,
-    prior: Option<DMatrix<f64>>,
+    penalty: Arc<DMatrix<f64>>,
+    /// The prior `factor * E` as the shared `E` and its factor.
+    prior: Option<(Arc<DMatrix<f64>>, f64)>,
+    nnls: NnlsParams,
 }
 
 /// One solve at a fixed `lambda`.
@@ -39,18 +47,48 @@ pub struct TikhonovSolution {
     pub penalty_sq: f64,
     /// Free (positive) variables at the solution, ascending.
     pub free: Vec<usize>,
-    /// Active-set iterations.
-    pub iterations: usize,
-    /// Whether the solver converged.
-    pub status: SolveStatus,
+    /// Iterations, status and KKT residual of the NNLS solve.
+    pub info: NnlsInfo,
 }
 
 impl Tikhonov {
-    /// Sets up the problem. `a` is `m x n`, `b` has `m` entries, `penalty` is `n x n`.
-    pub fn new(a: DMatrix<f64>, b: DVector<f64>, penalty: DMatrix<f64>) -> Self {
+    /// Sets up the problem. `a` is `m x n`, `b` has `m` entries, `penalty`
+    /// is `n x n`. Fails when the sizes disagree.
+    pub fn new(a: Matrix, b: Vec<f64>, penalty: Matrix) -> crate::Result<Self> {
+        if a.nrows() != b.len() || penalty.nrows() != a.ncols() || penalty.ncols() != a.ncols() {
+            return Err(crate::Error::Data(format!(
+                "a {} x {} design matrix needs {} right-hand-side values and a {} x {} penalty, got {} values and a {} x {} penalty",
+                a.nrows(),
+                a.ncols(),
+                a.nrows(),
+                a.ncols(),
+                a.ncols(),
+                b.len(),
+                penalty.nrows(),
+                penalty.ncols()
+            )));
+        }
+        Ok(Self::from_dense(a.0, DVector::from_vec(b), penalty.0))
+    }
+
+    /// [`Tikhonov::new`] on the inner matrix types (sizes checked by the caller).
+    pub(crate) fn from_dense(a: DMatrix<f64>, b: DVector<f64>, penalty: DMatrix<f64>) -> Self {
+        let ata = crate::linalg::gram_dense(&a);
+        Self::from_parts(Arc::new(a), b, Arc::new(ata), Arc::new(penalty), None)
+    }
+
+    /// A problem from prepared, shared pieces: `ata` must be `a' a`; the
+    /// prior is `factor * E` given as `(E, factor)`.
+    pub(crate) fn from_parts(
+        a: Arc<DMatrix<f64>>,
+        b: DVector<f64>,
+        ata: Arc<DMatrix<f64>>,
+        penalty: Arc<DMatrix<f64>>,
+        prior: Option<(Arc<DMatrix<f64>>, f64)>,
+    ) -> Self {
         debug_assert_eq!(a.nrows(), b.len());
         debug_assert_eq!(a.ncols(), penalty.nrows());
-        let ata = a.tr_mul(&a);
+        debug_assert_eq!(ata.nrows(), a.ncols());
         let atb = a.tr_mul(&b);
         Self {
             a,
@@ -58,7 +96,8 @@ impl Tikhonov {
             ata,
             atb,
             penalty,
-            prior: None,
+            prior,
+            nnls: NnlsParams::default(),
         }
     }
 
@@ -66,26 +105,48 @@ impl Tikhonov {
     /// objective: a prior that holds independently of the regularisation
     /// strength. It is not counted in `penalty_sq` nor in the data fit.
     #[must_use]
-    pub fn with_prior(mut self, prior: DMatrix<f64>) -> Self {
+    pub fn with_prior(mut self, prior: Matrix) -> Self {
         debug_assert_eq!(prior.nrows(), self.ncols());
-        self.prior = Some(prior);
+        self.prior = Some((Arc::new(prior.0), 1.0));
         self
     }
 
+    /// The tolerances of every NNLS solve of this problem.
+    #[must_use]
+    pub fn with_nnls_params(mut self, params: NnlsParams) -> Self {
+        self.nnls = params;
+        self
+    }
+
+    /// `A'A + lambda M (+ P)`, in one pass over the three matrices.
     fn normal_matrix(&self, lambda: f64) -> DMatrix<f64> {
-        let mut q = &self.ata + &self.penalty * lambda;
-        if let Some(p) = &self.prior {
-            q += p;
-        }
-        q
+        let n = self.ncols();
+        let (a, m) = (self.ata.as_slice(), self.penalty.as_slice());
+        let values: Vec<f64> = match &self.prior {
+            Some((p, f)) => a
+                .iter()
+                .zip(m)
+                .zip(p.as_slice())
+                .map(|((a, m), p)| (lambda * m + a) + p * f)
+                .collect(),
+            None => a.iter().zip(m).map(|(a, m)| lambda * m + a).collect(),
+        };
+        DMatrix::from_vec(n, n, values)
     }
 
     /// The same problem restricted to a subset of rows (used by cross-validation).
     pub fn rows(&self, rows: &[usize]) -> Self {
         let a = self.a.select_rows(rows);
         let b = DVector::from_fn(rows.len(), |i, _| self.b[rows[i]]);
-        let mut t = Self::new(a, b, self.penalty.clone());
-        t.prior.clone_from(&self.prior);
+        let ata = crate::linalg::gram_dense(&a);
+        let mut t = Self::from_parts(
+            Arc::new(a),
+            b,
+            Arc::new(ata),
+            self.penalty.clone(),
+            self.prior.clone(),
+        );
+        t.nnls = self.nnls;
         t
     }
 
@@ -100,63 +161,83 @@ impl Tikhonov {
     }
 
     /// The design matrix.
-    pub fn design(&self) -> &DMatrix<f64> {
+    pub fn design(&self) -> Matrix {
+        Matrix(self.a.as_ref().clone())
+    }
+
+    /// The design matrix, without a copy.
+    pub(crate) fn design_dense(&self) -> &DMatrix<f64> {
         &self.a
     }
 
     /// The right-hand side.
-    pub fn rhs(&self) -> &DVector<f64> {
-        &self.b
+    pub fn rhs(&self) -> &[f64] {
+        self.b.as_slice()
     }
 
     /// The penalty matrix.
-    pub fn penalty(&self) -> &DMatrix<f64> {
-        &self.penalty
+    pub fn penalty(&self) -> Matrix {
+        Matrix(self.penalty.as_ref().clone())
     }
 
     /// The fixed prior term, if any (see [`Tikhonov::with_prior`]).
-    pub fn prior(&self) -> Option<&DMatrix<f64>> {
-        self.prior.as_ref()
+    pub fn prior(&self) -> Option<Matrix> {
+        self.prior.as_ref().map(|(p, f)| Matrix(p.as_ref() * *f))
+    }
+
+    /// The matrix `A'A + lambda M + P` of the normal equations.
+    pub fn normal_equations(&self, lambda: f64) -> Matrix {
+        Matrix(self.normal_matrix(lambda))
+    }
+
+    /// The right-hand side `A'b` of the normal equations.
+    pub fn normal_rhs(&self) -> &[f64] {
+        self.atb.as_slice()
     }
 
     /// The full objective `||Ax - b||^2 + lambda x'Mx + x'Px` at `x`.
     pub fn objective(&self, lambda: f64, x: &[f64]) -> f64 {
         let xv = DVector::from_column_slice(x);
-        let r = &self.a * &xv - &self.b;
-        let mut v = r.norm_squared() + lambda * xv.dot(&(&self.penalty * &xv));
-        if let Some(p) = &self.prior {
-            v += xv.dot(&(p * &xv));
+        let r = self.a.as_ref() * &xv - &self.b;
+        let mut v = r.norm_squared() + lambda * xv.dot(&(self.penalty.as_ref() * &xv));
+        if let Some((p, f)) = &self.prior {
+            v += f * xv.dot(&(p.as_ref() * &xv));
         }
         v
-    }
-
-    /// `tr(A'A) / tr(M)` restricted to the penalised unknowns: the natural
-    /// scale of `lambda` for this problem.
-    pub fn lambda_scale(&self) -> f64 {
-        let (mut ta, mut tm) = (0.0, 0.0);
-        for j in 0..self.ncols() {
-            if self.penalty[(j, j)] > 0.0 {
-                ta += self.ata[(j, j)];
-                tm += self.penalty[(j, j)];
-            }
-        }
-        if tm > 0.0 && ta > 0.0 { ta / tm } else { 1.0 }
     }
 
     /// Solves at `lambda >= 0`, warm-started from the free set `warm`.
     pub fn solve(&self, lambda: f64, warm: &[usize]) -> TikhonovSolution {
         let q = self.normal_matrix(lambda);
-        let sol = nnls_normal(&q, &self.atb, warm);
-        self.finish(lambda, sol.x, sol.passive, sol.iterations, sol.status)
+        let sol = nnls_dense(&q, self.atb.as_slice(), warm, &self.nnls);
+        let xv = DVector::from_column_slice(&sol.x);
+        let r = self.a.as_ref() * &xv - &self.b;
+        let residual_sq = r.norm_squared();
+        // x'Mx >= 0 for a semidefinite M; rounding can leave -1e-30.
+        let penalty_sq = xv.dot(&(self.penalty.as_ref() * &xv)).max(0.0);
+        TikhonovSolution {
+            lambda,
+            x: sol.x,
+            residual_sq,
+            penalty_sq,
+            free: sol.passive,
+            info: sol.info,
+        }
     }
 
     /// Solves at every value of `lambdas`, from the largest down, each solve
-    /// warm-started from the free set of the previous one, and maps each
-    /// solution with `f`. Results come back in the order of `lambdas`.
-    pub fn sweep<T>(&self, lambdas: &[f64], mut f: impl FnMut(TikhonovSolution) -> T) -> Vec<T> {
+    /// warm-started from the free set of the previous one (the first from
+    /// `warm`), and maps each solution with `f`. Results come back in the
+    /// order of `lambdas`.
+    pub fn sweep<T>(
+        &self,
+        lambdas: &[f64],
+        warm: &[usize],
+        mut f: impl FnMut(TikhonovSolution) -> T,
+    ) -> Vec<T> {
         let mut order: Vec<usize> = (0..lambdas.len()).collect();
         order.sort_by(|&a, &b| lambdas[b].total_cmp(&lambdas[a]));
-        let mut warm: Vec<usize> = Vec::new();
+        let mut warm: Vec<usize> = warm.to_vec();
         let mut out: Vec<Option<T>> = (0..lambdas.len()).map(|_| None).collect();
         for i in order {
             let solution = self.solve(lambdas[i], &warm);
@@ -166,32 +247,9 @@ impl Tikhonov {
         out.into_iter().flatten().collect()
     }
 
-    fn finish(
-        &self,
-        lambda: f64,
-        x: Vec<f64>,
-        free: Vec<usize>,
-        iterations: usize,
-        status: SolveStatus,
-    ) -> TikhonovSolution {
-        let xv = DVector::from_column_slice(&x);
-        let r = &self.a * &xv - &self.b;
-        let residual_sq = r.norm_squared();
-        let penalty_sq = xv.dot(&(&self.penalty * &xv)).max(0.0);
-        TikhonovSolution {
-            lambda,
-            x,
-            residual_sq,
-            penalty_sq,
-            free,
-            iterations,
-            status,
-        }
-    }
-
     /// Predicted right-hand side `A x`.
     pub fn predict(&self, x: &[f64]) -> Vec<f64> {
-        (&self.a * DVector::from_column_slice(x))
+        (self.a.as_ref() * DVector::from_column_slice(x))
             .iter()
             .copied()
             .collect()
@@ -210,7 +268,7 @@ impl Tikhonov {
             let (a, b) = (free[i], free[j]);
             self.ata[(a, b)]
                 + lambda * self.penalty[(a, b)]
-                + self.prior.as_ref().map_or(0.0, |m| m[(a, b)])
+                + self.prior.as_ref().map_or(0.0, |(m, f)| m[(a, b)] * f)
         });
         let g = DMatrix::from_fn(p, p, |i, j| self.ata[(free[i], free[j])]);
         match q.clone().cholesky() {
@@ -244,7 +302,7 @@ mod tests {
         });
         let x_true = DVector::from_column_slice(&[1.0, 2.0, 0.5, 1.5]);
         let b = &a * &x_true;
-        let t = Tikhonov::new(a.clone(), b.clone(), DMatrix::identity(4, 4));
+        let t = Tikhonov::from_dense(a.clone(), b.clone(), DMatrix::identity(4, 4));
         let lambda = 0.05;
         let s = t.solve(lambda, &[]);
         let want = (a.transpose() * &a + DMatrix::identity(4, 4) * lambda)
@@ -266,9 +324,9 @@ mod tests {
     fn sweep_matches_cold_solves_in_input_order() {
         let a = DMatrix::from_fn(15, 5, |i, j| (((i * 31 + j * 17) % 11) as f64 / 11.0) - 0.2);
         let b = DVector::from_fn(15, |i, _| ((i as f64) * 0.9).sin());
-        let t = Tikhonov::new(a, b, DMatrix::identity(5, 5));
+        let t = Tikhonov::from_dense(a, b, DMatrix::identity(5, 5));
         let lambdas = [1e-3, 1.0, 1e-1];
-        let swept = t.sweep(&lambdas, |s| (s.lambda, s.x));
+        let swept = t.sweep(&lambdas, &[], |s| (s.lambda, s.x));
         for (k, (lam, x)) in swept.iter().enumerate() {
             assert_eq!(*lam, lambdas[k]);
             let cold = t.solve(lambdas[k], &[]);
@@ -282,10 +340,10 @@ mod tests {
     fn row_subset_keeps_only_those_equations() {
         let a = DMatrix::from_fn(6, 2, |i, j| (i + 2 * j) as f64 + 1.0);
         let b = DVector::from_fn(6, |i, _| i as f64);
-        let t = Tikhonov::new(a, b, DMatrix::identity(2, 2));
+        let t = Tikhonov::from_dense(a, b, DMatrix::identity(2, 2));
         let sub = t.rows(&[1, 3, 5]);
         assert_eq!(sub.nrows(), 3);
-        assert_eq!(sub.design()[(1, 1)], 6.0);
+        assert_eq!(sub.design().get(1, 1), 6.0);
         assert_eq!(sub.rhs()[2], 5.0);
     }
 }

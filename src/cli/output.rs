@@ -1,0 +1,75 @@
+//! What every inversion command writes and prints, whatever it measured:
+//! the distribution's files and figures, the warnings, and the lines of the
+//! console report that spectra and transients share.
+
+use anyhow::Result;
+use std::io::Write;
+use std::path::{Path, PathBuf};
+use taumap::io::write::OutputSet;
+use taumap::pipeline::Distribution;
+use taumap::plot::{self, ImageFormat};
+use taumap::report;
+
+/// Both image formats, with their file extensions.
+pub const FORMATS: [(&str, ImageFormat); 2] = [("svg", ImageFormat::Svg), ("png", ImageFormat::Png)];
+
+/// Adds `drt.csv`, `lambda.csv` (when a rule chose lambda) and, with
+/// `plots`, the DRT and lambda figures of `drt` to `set`.
+pub fn add_distribution(
+    set: &mut OutputSet,
+    drt: &Distribution,
+    drt_title: &str,
+    plots: bool,
+) -> Result<()> {
+    set.add("drt.csv", report::drt_csv(drt))?;
+    if let Some(l) = report::lambda_csv(&drt.lambda) {
+        set.add("lambda.csv", l)?;
+    }
+    if plots {
+        for (ext, fmt) in FORMATS {
+            set.add(
+                format!("drt.{ext}"),
+                plot::render_distribution(drt, drt_title, fmt)?,
+            )?;
+            if let Some(bytes) = plot::render_lambda_selection(&drt.lambda, fmt) {
+                set.add(format!("lambda.{ext}"), bytes?)?;
+            }
+        }
+    }
+    Ok(())
+}
+
+/// Prints every warning of `drt` as `warning: INPUT: ...` on stderr.
+pub fn print_warnings(input: &Path, drt: &Distribution) {
+    for w in &drt.warnings {
+        eprintln!("warning: {}: {w}", input.display());
+    }
+}
+
+/// The console's `lambda = ... (rule), residual rms = ... %` phrase.
+pub fn lambda_phrase(fit: &report::FitSummary) -> String {
+    format!(
+        "lambda = {:.3e} ({}), residual rms = {:.3} %",
+        fit.lambda.lambda,
+        fit.lambda.lambda_rule,
+        100.0 * fit.residual_rms_rel
+    )
+}
+
+/// Prints the JSON summary (with `--json`) or, through `human`, the short
+/// report followed by the count of files written.
+pub fn report_run(
+    json: Option<String>,
+    out: &Path,
+    written: &[PathBuf],
+    human: impl FnOnce(&mut dyn Write) -> std::io::Result<()>,
+) -> Result<()> {
+    let mut stdout = std::io::stdout().lock();
+    if let Some(text) = json {
+        stdout.write_all(text.as_bytes())?;
+        return Ok(());
+    }
+    human(&mut stdout)?;
+    writeln!(stdout, "wrote {} files to {}", written.len(), out.display())?;
+    Ok(())
+}

@@ -1,0 +1,1 @@
+//! Lambda rules against closed-form ridge references (filled in separately).

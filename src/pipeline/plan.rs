@@ -1,0 +1,550 @@
+//! The prepared problem: everything that depends only on the measurement
+//! axis and the options, built once and shared by every response.
+//!
+//! A [`Plan`] holds the tau grid and basis, the kernel (one row per equation,
+//! one column per unknown: the basis coefficients first, then the series
+//! terms), the penalty Gram matrix, the extension prior and, when the row
+//! weights do not depend on the response, the weighted design matrix and its
+//! cross product `A'A`. Solving a response then costs the right-hand side,
+//! the lambda choice and the solves; with response-dependent weights (|Z|
+//! weighting of a spectrum) it adds one cross product.
+//!
+//! The front ends ([`crate::pipeline::SpectrumPlan`],
+//! [`crate::pipeline::TransientPlan`]) build a plan from their axis and turn
+//! responses into scaled right-hand sides; the lambda choice, the final
+//! solve, the sampled distribution and its peaks are here, once.
+
+use super::options::DrtOptions;
+use super::result::{
+    Distribution, DistributionUnit, LambdaSelection, SeriesTerms, SolveInfo, WarmStart,
+};
+use super::select::{Selected, select};
+use crate::grid::TauGrid;
+use crate::kernel::Basis;
+use crate::peaks::find_peaks;
+use crate::solve::Tikhonov;
+use crate::{Error, Result};
+use nalgebra::{DMatrix, DVector};
+use std::f64::consts::LN_10;
+use std::sync::Arc;
+
+/// A prepared inversion on one measurement axis. `Send + Sync`: one plan
+/// can serve many threads.
+#[derive(Clone, Debug)]
+pub struct Plan {
+    opts: DrtOptions,
+    grid: TauGrid,
+    basis: Basis,
+    /// `(ln tau_lo, ln tau_hi)` of the band the data resolve.
+    band_ln_tau: (f64, f64),
+    /// Unweighted kernel, `rows x (n_gamma + series)`.
+    kernel: DMatrix<f64>,
+    n_gamma: usize,
+    penalty: Arc<DMatrix<f64>>,
+    /// The extension prior's Gram matrix before its data scale (basis
+    /// block, padded with zeros to `ncols`); `None` when switched off.
+    extension: Option<Arc<DMatrix<f64>>>,
+    /// Weighted design, cross product and prior, when the row weights are
+    /// fixed by the axis.
+    fixed: Option<Prepared>,
+    cv_split: (Vec<usize>, Vec<usize>),
+    sampler: Sampler,
+}
+
+/// The basis functions at the output samples of the distribution, computed
+/// once: sampling a response is then a banded product, not one exponential
+/// per basis function and sample.
+#[derive(Clone, Debug)]
+struct Sampler {
+    ln_tau: Vec<f64>,
+    tau_s: Vec<f64>,
+    /// For each sample: the first basis function within reach and the
+    /// values of those within reach.
+    rows: Vec<(usize, Vec<f64>)>,
+}
+
+impl Sampler {
+    fn new(basis: &Basis, oversample: usize) -> Self {
+        let ln_tau = sample_points(basis, oversample);
+        let reach = basis.half_support();
+        let c = basis.centers();
+        let rows = ln_tau
+            .iter()
+            .map(|&y| match basis.reach(y, reach) {
+                Some((lo, hi)) => (lo, (lo..=hi).map(|j| basis.shape(y - c[j])).collect()),
+                None => (0, Vec::new()),
+            })
+            .collect();
+        Self {
+            tau_s: ln_tau.iter().map(|y| y.exp()).collect(),
+            ln_tau,
+            rows,
+        }
+    }
+
+    /// `sum_j c_j phi_j` at every sample, in the order and with the rounding
+    /// of [`Basis::evaluate`].
+    fn evaluate(&self, coeffs: &[f64]) -> Vec<f64> {
+        self.rows
+            .iter()
+            .map(|(lo, phi)| {
+                coeffs[*lo..]
+                    .iter()
+                    .zip(phi)
+                    .map(|(c, p)| c * p)
+                    .sum()
+            })
+            .collect()
+    }
+}
+
+#[derive(Clone, Debug)]
+struct Prepared {
+    a: Arc<DMatrix<f64>>,
+    ata: Arc<DMatrix<f64>>,
+    prior: Option<(Arc<DMatrix<f64>>, f64)>,
+}
+
+/// The solved, scaled problem of one response, before the front end turns
+/// it into physical units.
+pub(crate) struct Solved {
+    /// The unknowns in plan column order (dropped columns are 0).
+    pub x: Vec<f64>,
+    /// `A x` of the solved problem (weighted, scaled units).
+    pub prediction: Vec<f64>,
+    pub selection: LambdaSelection,
+    pub info: SolveInfo,
+    pub warm_start: WarmStart,
+}
+
+impl Plan {
+    /// Builds a plan from the kernel of the distribution (`rows x n`, `n` the
+    /// number of basis functions of `basis`), the columns of the series
+    /// terms (each `rows` long), and `row_scale`, the factor of each row of
+    /// the design matrix when it is the same for every response (`None`
+    /// when it depends on the response).
+    #[allow(clippy::too_many_arguments)]
+    pub(crate) fn new(
+        opts: &DrtOptions,
+        grid: TauGrid,
+        basis: Basis,
+        band_ln_tau: (f64, f64),
+        gamma_kernel: DMatrix<f64>,
+        series_columns: &[Vec<f64>],
+        row_scale: Option<&[f64]>,
+        cv_split: (Vec<usize>, Vec<usize>),
+    ) -> Result<Self> {
+        let rows = gamma_kernel.nrows();
+        let n_gamma = basis.len();
+        debug_assert_eq!(gamma_kernel.ncols(), n_gamma);
+        let ncols = n_gamma + series_columns.len();
+        let mut kernel = gamma_kernel.resize_horizontally(ncols, 0.0);
+        for (k, col) in series_columns.iter().enumerate() {
+            debug_assert_eq!(col.len(), rows);
+            kernel.set_column(n_gamma + k, &DVector::from_column_slice(col));
+        }
+        let gram = basis.gram_dense(opts.penalty_order)?;
+        let mut penalty = DMatrix::zeros(ncols, ncols);
+        penalty
+            .view_mut((0, 0), (n_gamma, n_gamma))
+            .copy_from(&gram);
+        let extension = (opts.extension_prior > 0.0).then(|| {
+            Arc::new(extension_gram(&basis, band_ln_tau).resize(ncols, ncols, 0.0))
+        });
+        let sampler = Sampler::new(&basis, opts.oversample);
+        let mut plan = Self {
+            opts: opts.clone(),
+            grid,
+            basis,
+            band_ln_tau,
+            kernel,
+            n_gamma,
+            penalty: Arc::new(penalty),
+            extension,
+            fixed: None,
+            cv_split,
+            sampler,
+        };
+        if let Some(scale) = row_scale {
+            let a = plan.weighted(scale, &plan.kept(&[]));
+            // Once per plan: the column-by-column product (its rounding
+            // is the one the outputs were first published with).
+            let ata = a.tr_mul(&a);
+            let prior = plan.prior_for(&a, ncols);
+            plan.fixed = Some(Prepared {
+                a: Arc::new(a),
+                ata: Arc::new(ata),
+                prior,
+            });
+        }
+        Ok(plan)
+    }
+
+    /// The options the plan was built with.
+    pub fn options(&self) -> &DrtOptions {
+        &self.opts
+    }
+
+    /// The tau grid (basis centres).
+    pub fn grid(&self) -> &TauGrid {
+        &self.grid
+    }
+
+    /// The basis on the grid.
+    pub fn basis(&self) -> &Basis {
+        &self.basis
+    }
+
+    /// Number of equations per response.
+    pub fn nrows(&self) -> usize {
+        self.kernel.nrows()
+    }
+
+    /// Number of unknowns: basis coefficients, then series terms.
+    pub fn ncols(&self) -> usize {
+        self.kernel.ncols()
+    }
+
+    /// Number of basis coefficients.
+    pub fn n_gamma(&self) -> usize {
+        self.n_gamma
+    }
+
+    /// `diag(scale) K` on the columns `keep`.
+    fn weighted(&self, scale: &[f64], keep: &[usize]) -> DMatrix<f64> {
+        let mut a = DMatrix::zeros(self.nrows(), keep.len());
+        for (k, &j) in keep.iter().enumerate() {
+            for ((o, kij), s) in a.column_mut(k).iter_mut().zip(self.kernel.column(j)).zip(scale) {
+                *o = kij * s;
+            }
+        }
+        a
+    }
+
+    /// The extension prior for the design `a` (basis columns first), as the
+    /// Gram matrix `E` padded to `ncols` and its factor `weight * s`:
+    /// `E_ij = integral w(y) phi_i(y) phi_j(y) dy`, `w(y)` the squared
+    /// distance in decades from `y = ln tau` to the band the data resolve
+    /// (zero inside), and `s = sum_j |A_j|^2 / (n integral phi^2)` the
+    /// data's scale per unit of basis overlap. Mass beyond the band is
+    /// allowed but costs more the further out it sits, so the extension
+    /// reduces truncation error without absorbing noise as resistance (our
+    /// choice; see docs/lambda-rules.md).
+    fn prior_for(&self, a: &DMatrix<f64>, ncols: usize) -> Option<(Arc<DMatrix<f64>>, f64)> {
+        let ext = self.extension.as_ref()?;
+        let n = self.n_gamma;
+        let data_scale = (0..n).map(|j| a.column(j).norm_squared()).sum::<f64>()
+            / (n as f64 * self.basis.self_overlap());
+        let padded = if ext.ncols() == ncols {
+            ext.clone()
+        } else {
+            Arc::new(ext.clone_owned().resize(ncols, ncols, 0.0))
+        };
+        Some((padded, self.opts.extension_prior * data_scale))
+    }
+
+    /// The scaled regularised problem of one response: right-hand side `b`
+    /// (already weighted and scaled), row factors `row_scale` when the plan
+    /// has none fixed, and the plan columns `dropped` (series terms that
+    /// this response does not use).
+    pub(crate) fn problem(
+        &self,
+        b: Vec<f64>,
+        row_scale: Option<&[f64]>,
+        dropped: &[usize],
+    ) -> Result<Tikhonov> {
+        if b.len() != self.nrows() {
+            return Err(Error::Data(format!(
+                "the plan has {} equations but the response gives {}",
+                self.nrows(),
+                b.len()
+            )));
+        }
+        if let Some(bad) = b.iter().position(|v| !v.is_finite()) {
+            return Err(Error::Data(format!(
+                "the response holds a non-finite value at equation {}",
+                bad + 1
+            )));
+        }
+        let b = DVector::from_vec(b);
+        let keep = self.kept(dropped);
+        let k = keep.len();
+        let sub = |m: &DMatrix<f64>| DMatrix::from_fn(k, k, |r, c| m[(keep[r], keep[c])]);
+        let penalty = if dropped.is_empty() {
+            self.penalty.clone()
+        } else {
+            Arc::new(sub(&self.penalty))
+        };
+        match (&self.fixed, row_scale) {
+            (Some(p), None) if dropped.is_empty() => Ok(Tikhonov::from_parts(
+                p.a.clone(),
+                b,
+                p.ata.clone(),
+                penalty,
+                p.prior.clone(),
+            )),
+            (Some(p), None) => Ok(Tikhonov::from_parts(
+                Arc::new(p.a.select_columns(&keep)),
+                b,
+                Arc::new(sub(&p.ata)),
+                penalty,
+                p.prior.as_ref().map(|(e, f)| (Arc::new(sub(e)), *f)),
+            )),
+            (_, Some(scale)) => {
+                if scale.len() != self.nrows() {
+                    return Err(Error::Data(format!(
+                        "the plan has {} equations but {} row weights",
+                        self.nrows(),
+                        scale.len()
+                    )));
+                }
+                let a = self.weighted(scale, &keep);
+                let ata = crate::linalg::gram_dense(&a);
+                let prior = self.prior_for(&a, k);
+                Ok(Tikhonov::from_parts(
+                    Arc::new(a),
+                    b,
+                    Arc::new(ata),
+                    penalty,
+                    prior,
+                ))
+            }
+            (None, None) => Err(Error::Data(
+                "this plan needs row weights for every response".into(),
+            )),
+        }
+    }
+
+    fn kept(&self, dropped: &[usize]) -> Vec<usize> {
+        (0..self.ncols()).filter(|j| !dropped.contains(j)).collect()
+    }
+
+    /// Chooses lambda, solves, and maps the unknowns back to plan columns.
+    pub(crate) fn solve(
+        &self,
+        problem: &Tikhonov,
+        dropped: &[usize],
+        cv_split: Option<(&[usize], &[usize])>,
+        warm: Option<&WarmStart>,
+    ) -> Solved {
+        let keep = self.kept(dropped);
+        // Warm starts and free sets are in plan columns; the problem may
+        // have fewer.
+        let to_problem: Vec<usize> = warm
+            .map(|w| {
+                w.free
+                    .iter()
+                    .filter_map(|j| keep.iter().position(|k| k == j))
+                    .collect()
+            })
+            .unwrap_or_default();
+        let split = cv_split.unwrap_or((&self.cv_split.0, &self.cv_split.1));
+        let Selected {
+            solution,
+            selection,
+            info,
+        } = select(problem, &self.opts, split, &to_problem);
+        let mut x = vec![0.0; self.ncols()];
+        for (k, &j) in keep.iter().enumerate() {
+            x[j] = solution.x[k];
+        }
+        let prediction = problem.predict(&solution.x);
+        Solved {
+            x,
+            prediction,
+            selection,
+            info,
+            warm_start: WarmStart {
+                free: solution.free.iter().map(|&k| keep[k]).collect(),
+            },
+        }
+    }
+
+    /// The distribution of the basis coefficients `coeffs` (physical
+    /// units), sampled, integrated and split into peaks no smaller than
+    /// `min_area` (0: no absolute limit).
+    #[allow(clippy::too_many_arguments)]
+    pub(crate) fn distribution(
+        &self,
+        unit: DistributionUnit,
+        coeffs: Vec<f64>,
+        series: SeriesTerms,
+        min_area: f64,
+        residual_rms_rel: f64,
+        solved: Solved,
+        warnings: Vec<String>,
+    ) -> Distribution {
+        let total = coeffs.iter().sum::<f64>() * self.basis.integral();
+        let gamma = self.sampler.evaluate(&coeffs);
+        let mut peak_opts = self.opts.peaks;
+        if peak_opts.min_area <= 0.0 {
+            peak_opts.min_area = min_area;
+        }
+        let peaks = find_peaks(&self.sampler.ln_tau, &gamma, &peak_opts);
+        let mut warnings = warnings;
+        warnings.extend(solved.selection.warning());
+        Distribution {
+            unit,
+            grid: self.grid.clone(),
+            coeffs,
+            tau_s: self.sampler.tau_s.clone(),
+            gamma,
+            total,
+            series,
+            peaks,
+            min_area: peak_opts.min_area,
+            residual_rms_rel,
+            lambda: solved.selection,
+            info: solved.info,
+            warnings,
+            warm_start: solved.warm_start,
+        }
+    }
+
+    /// `(ln tau_lo, ln tau_hi)` of the band the data resolve.
+    pub fn band_ln_tau(&self) -> (f64, f64) {
+        self.band_ln_tau
+    }
+}
+
+fn extension_gram(basis: &Basis, band: (f64, f64)) -> DMatrix<f64> {
+    let n = basis.len();
+    let c = basis.centers();
+    let h = basis.step() / 8.0;
+    let reach = basis.half_support();
+    let (y0, y1) = (c[0] - reach, c[n - 1] + reach);
+    let steps = ((y1 - y0) / h).ceil() as usize;
+    let mut m = DMatrix::zeros(n, n);
+    for s in 0..=steps {
+        let y = y0 + s as f64 * h;
+        let d = if y < band.0 {
+            (band.0 - y) / LN_10
+        } else if y > band.1 {
+            (y - band.1) / LN_10
+        } else {
+            continue;
+        };
+        let w = d * d * h;
+        let lo = (((y - reach - c[0]) / basis.step()).floor().max(0.0)) as usize;
+        let hi = ((((y + reach - c[0]) / basis.step()).ceil()) as usize).min(n - 1);
+        for i in lo..=hi {
+            let pi = basis.shape(y - c[i]);
+            if pi == 0.0 {
+                continue;
+            }
+            for j in lo..=hi {
+                m[(i, j)] += w * pi * basis.shape(y - c[j]);
+            }
+        }
+    }
+    m
+}
+
+/// The distribution `sum_j c_j phi_j(ln tau)` sampled `oversample` times per
+/// grid step, from `min(half support, 3 steps)` before the first centre to as
+/// far past the last, so the whole area is sampled. Returns `(ln tau, values)`.
+pub fn sample_distribution(
+    basis: &Basis,
+    coeffs: &[f64],
+    oversample: usize,
+) -> (Vec<f64>, Vec<f64>) {
+    let ln_tau = sample_points(basis, oversample);
+    let values = basis.evaluate(coeffs, &ln_tau);
+    (ln_tau, values)
+}
+
+/// The `ln tau` of the output samples (see [`sample_distribution`]).
+fn sample_points(basis: &Basis, oversample: usize) -> Vec<f64> {
+    let n = basis.len();
+    let step = basis.step() / oversample.max(1) as f64;
+    let reach = basis.half_support().min(3.0 * basis.step());
+    let y0 = basis.centers()[0] - reach;
+    let y1 = basis.centers()[n - 1] + reach;
+    let n_out = ((y1 - y0) / step).round() as usize + 1;
+    (0..n_out).map(|i| y0 + step * i as f64).collect()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::kernel::BasisKind;
+
+    fn assert_send_sync<T: Send + Sync>() {}
+
+    #[test]
+    fn plans_are_shareable_across_threads() {
+        assert_send_sync::<Plan>();
+        assert_send_sync::<super::super::SpectrumPlan>();
+        assert_send_sync::<super::super::TransientPlan>();
+    }
+
+    #[test]
+    fn grid_extends_band_and_honours_overrides() {
+        let o = DrtOptions::default();
+        let g = o.grid(1e-4, 1.0).unwrap();
+        let t = g.tau_s();
+        assert!((t[0] / 1e-5 - 1.0).abs() < 1e-12);
+        assert!((t[t.len() - 1] / 10.0 - 1.0).abs() < 1e-12);
+        assert_eq!(g.len(), 61);
+        let o = DrtOptions {
+            tau_max_s: Some(100.0),
+            ..DrtOptions::default()
+        };
+        let t = o.grid(1e-4, 1.0).unwrap().tau_s();
+        assert!((t[0] / 1e-5 - 1.0).abs() < 1e-12);
+        assert!((t[t.len() - 1] / 100.0 - 1.0).abs() < 1e-12);
+    }
+
+    /// The samples of a hat basis reproduce the coefficients at the centres
+    /// and integrate (trapezoid) to sum(c) * dy, the exact area.
+    #[test]
+    fn sampling_covers_the_whole_area() {
+        let g = TauGrid::new(1e-3, 1.0, 10.0).unwrap();
+        let basis = Basis::new(BasisKind::Hat, &g);
+        let c: Vec<f64> = (0..basis.len()).map(|j| 1.0 + (j % 3) as f64).collect();
+        let (y, v) = sample_distribution(&basis, &c, 4);
+        assert!(v[0].abs() < 1e-12);
+        assert!(v[v.len() - 1].abs() < 1e-12);
+        assert!((v[4] - c[0]).abs() < 1e-12);
+        let h = y[1] - y[0];
+        let area: f64 = v.iter().sum::<f64>() * h;
+        let want: f64 = c.iter().sum::<f64>() * basis.step();
+        assert!((area / want - 1.0).abs() < 1e-12);
+    }
+
+    /// The plan's precomputed sampler gives exactly the values of the
+    /// direct evaluation, for both bases.
+    #[test]
+    fn sampler_matches_direct_evaluation() {
+        let g = TauGrid::new(1e-5, 1e1, 10.0).unwrap();
+        for kind in [BasisKind::Gaussian, BasisKind::Hat] {
+            let basis = Basis::new(kind, &g);
+            let c: Vec<f64> = (0..basis.len())
+                .map(|j| ((j * 7919) % 13) as f64 * 0.1)
+                .collect();
+            let (y, direct) = sample_distribution(&basis, &c, 5);
+            let s = Sampler::new(&basis, 5);
+            assert_eq!(s.ln_tau, y);
+            let fast = s.evaluate(&c);
+            for (a, b) in direct.iter().zip(&fast) {
+                assert_eq!(a.to_bits(), b.to_bits(), "{a} vs {b}");
+            }
+        }
+    }
+
+    #[test]
+    fn extension_prior_is_zero_inside_the_band() {
+        let g = TauGrid::new(1e-4, 1e2, 10.0).unwrap();
+        let basis = Basis::new(BasisKind::Gaussian, &g);
+        let m = extension_gram(&basis, (1e-4f64.ln(), 1e2f64.ln()));
+        let mid = basis.len() / 2;
+        assert!(m[(mid, mid)].abs() < 1e-30);
+        // One decade outside on both sides: nothing there either.
+        let m = extension_gram(&basis, (1e-6f64.ln(), 1e4f64.ln()));
+        assert!(m.amax() < 1e-20);
+        // Band shrunk to the middle: the end functions pay ~ (distance in decades)^2.
+        let m = extension_gram(&basis, (1e-1f64.ln(), 1e-1f64.ln()));
+        let end = m[(0, 0)] / basis.self_overlap();
+        assert!((end / 9.0 - 1.0).abs() < 0.02, "{end}");
+    }
+}

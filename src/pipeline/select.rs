@@ -1,0 +1,141 @@
+//! The choice of `lambda` and the final solve, the same for every kind of
+//! measurement.
+
+use super::options::DrtOptions;
+use super::result::{GridEdge, LambdaSelection, SolveInfo};
+use crate::lambda::{self, LambdaChoice, LambdaCurves, LambdaPath, LambdaRule};
+use crate::solve::{SolveStatus, Tikhonov, TikhonovSolution};
+
+/// How bad a status is, for combining several solves into one report.
+fn severity(s: SolveStatus) -> u8 {
+    match s {
+        SolveStatus::Converged => 0,
+        SolveStatus::Degenerate => 1,
+        SolveStatus::MaxIterations => 2,
+        SolveStatus::Unbounded => 3,
+        SolveStatus::NonFinite => 4,
+    }
+}
+
+/// The worse of two statuses.
+pub(crate) fn worst(a: SolveStatus, b: SolveStatus) -> SolveStatus {
+    if severity(b) > severity(a) { b } else { a }
+}
+
+/// The final solve, how `lambda` was found, and the solver's diagnostics.
+pub(crate) struct Selected {
+    pub solution: TikhonovSolution,
+    pub selection: LambdaSelection,
+    pub info: SolveInfo,
+}
+
+/// Chooses `lambda` as `opts` asks and solves at it, warm-started from
+/// `warm` (a free set of a neighbouring solution, or empty).
+///
+/// `cv_split` holds the two blocks of rows that the cross-validation rule
+/// ([`LambdaRule::Recv`]) fits against each other: the real and imaginary
+/// equations of a spectrum, alternate samples of a transient.
+pub(crate) fn select(
+    problem: &Tikhonov,
+    opts: &DrtOptions,
+    cv_split: (&[usize], &[usize]),
+    warm: &[usize],
+) -> Selected {
+    let mut start: Vec<usize> = warm.to_vec();
+    let mut path_status = SolveStatus::Converged;
+    let selection = match opts.lambda {
+        LambdaChoice::Fixed(v) => LambdaSelection {
+            lambda: v,
+            rule: None,
+            rule_choice: None,
+            floored: false,
+            grid_edge: None,
+            curves: None,
+        },
+        LambdaChoice::Rule(rule) => {
+            let lambdas = opts.lambda_grid.values();
+            let path = LambdaPath::trace(problem, &lambdas, warm);
+            path_status = path
+                .points
+                .iter()
+                .fold(SolveStatus::Converged, |s, p| worst(s, p.solution.info.status));
+            // The rules that read the path cost nothing more; the
+            // cross-validation rule needs two more sweeps, so its curve is
+            // computed only when it decides or when every curve is asked for.
+            let rules: Vec<_> = LambdaRule::ALL
+                .into_iter()
+                .filter(|r| *r != LambdaRule::Recv || rule == LambdaRule::Recv || opts.all_curves)
+                .map(|r| match r {
+                    LambdaRule::Gcv => lambda::gcv::curve(&path),
+                    LambdaRule::Lcurve => lambda::lcurve::curve(&path),
+                    LambdaRule::Discrepancy => lambda::discrepancy::curve(&path),
+                    LambdaRule::Recv => {
+                        lambda::recv::curve(problem, cv_split.0, cv_split.1, &lambdas)
+                    }
+                })
+                .collect();
+            let rule_choice = rules
+                .iter()
+                .find(|c| c.rule == rule)
+                .and_then(|c| c.chosen);
+            let (lo, hi) = (lambdas[0], lambdas[lambdas.len() - 1]);
+            // The refinement never leaves the grid; a choice within a
+            // millionth of a decade of an end is on it.
+            let grid_edge = match rule_choice {
+                None => Some(GridEdge::Lower),
+                Some(c) if c <= lo * (1.0 + 1e-6) => Some(GridEdge::Lower),
+                Some(c) if c >= hi * (1.0 - 1e-6) => Some(GridEdge::Upper),
+                Some(_) => None,
+            };
+            let chosen = rule_choice.unwrap_or(opts.lambda_floor.max(lo));
+            let floored = chosen < opts.lambda_floor;
+            let used = chosen.max(opts.lambda_floor);
+            // Warm-start the final solve from the nearest grid point.
+            if let Some(p) = path.points.iter().min_by(|a, b| {
+                (a.solution.lambda / used)
+                    .ln()
+                    .abs()
+                    .total_cmp(&(b.solution.lambda / used).ln().abs())
+            }) {
+                start.clone_from(&p.solution.free);
+            }
+            LambdaSelection {
+                lambda: used,
+                rule: Some(rule),
+                rule_choice,
+                floored,
+                grid_edge,
+                curves: Some(LambdaCurves {
+                    lambda: lambdas,
+                    residual_sq: path.points.iter().map(|p| p.solution.residual_sq).collect(),
+                    penalty_sq: path.points.iter().map(|p| p.solution.penalty_sq).collect(),
+                    dof: path.points.iter().map(|p| p.dof).collect(),
+                    rules,
+                }),
+            }
+        }
+    };
+    let solution = problem.solve(selection.lambda, &start);
+    let dof = problem.influence_trace(selection.lambda, &solution.free);
+    // A degenerate subproblem at a tiny lambda of the path does not taint
+    // the final answer; an iteration limit or a non-finite value does.
+    let mut status = solution.info.status;
+    if severity(path_status) >= severity(SolveStatus::MaxIterations) {
+        status = worst(status, path_status);
+    }
+    let info = SolveInfo {
+        iterations: solution.info.iterations,
+        status,
+        path_status,
+        kkt_residual: solution.info.kkt_residual,
+        shift: solution.info.shift,
+        equations: problem.nrows(),
+        unknowns: problem.ncols(),
+        dof,
+    };
+    Selected {
+        solution,
+        selection,
+        info,
+    }
+}

@@ -1,0 +1,406 @@
+//! The spectrum front end: an impedance spectrum to a distribution of
+//! relaxation times.
+//!
+//! Model (a Fredholm integral equation of the first kind):
+//!
+//! $$ Z(\omega) = R_\infty + j\omega L + \frac{1}{j\omega C_s}
+//!    + \int_{-\infty}^{\infty} \frac{\gamma(\ln\tau)}{1 + j\omega\tau}\, d\ln\tau $$
+//!
+//! with `gamma >= 0` (ohm per unit ln tau), `R_inf >= 0`, an optional series
+//! inductance `L >= 0` and an optional series capacitance `C_s` for blocking
+//! electrodes. Discretised on a basis (see [`crate::kernel`]) and solved as
+//!
+//! $$ \min_{x \ge 0} \lVert W (K x - z) \rVert^2 + \lambda \int (\gamma^{(k)})^2 d\ln\tau $$
+//!
+//! where `W` weights each frequency by `1/|Z|` (default) or uniformly, and the
+//! penalty is the exact Gram matrix of the k-th derivative of the basis.
+//!
+//! Scaling: the unknowns are solved in units of `z_scale = max |Z|` (and the
+//! inductance and capacitance columns in units of `1/omega_max` and
+//! `omega_min`), so `lambda` is dimensionless and a spectrum multiplied by any
+//! factor gives the same `lambda` and a DRT multiplied by that factor. All
+//! values returned are in physical units.
+//!
+//! A [`SpectrumPlan`] prepares everything that depends only on the
+//! frequencies and the options; [`invert`] is a plan used once.
+
+use super::options::DrtOptions;
+use super::plan::Plan;
+use super::result::{DistributionUnit, Inversion, SeriesTerms, WarmStart};
+use crate::io::Spectrum;
+use crate::kernel::{Basis, ImpedanceKernel};
+use crate::solve::Tikhonov;
+use crate::{Error, Result};
+use std::f64::consts::PI;
+
+/// How residuals are weighted.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, serde::Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Weighting {
+    /// Each point divided by its modulus |Z_i| (relative errors; default).
+    Modulus,
+    /// All points weighted equally.
+    Unit,
+}
+
+/// Whether a series inductance is part of the model.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, serde::Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum InductanceMode {
+    /// On when the highest two frequencies both show Z'' > 0.
+    Auto,
+    /// Always fitted.
+    On,
+    /// Never fitted.
+    Off,
+}
+
+/// Parameters of an inversion: the shared [`DrtOptions`] and the
+/// spectrum's own model choices. See [`InvertParams::default`].
+#[derive(Clone, Debug, PartialEq)]
+pub struct InvertParams {
+    /// Grid, basis, penalty, lambda and peak options.
+    pub drt: DrtOptions,
+    /// Residual weighting.
+    pub weighting: Weighting,
+    /// Series inductance.
+    pub inductance: InductanceMode,
+    /// Fit a series capacitance (blocking electrodes).
+    pub series_capacitance: bool,
+}
+
+impl Default for InvertParams {
+    /// [`DrtOptions::default`], modulus weighting, automatic inductance, no
+    /// series capacitance.
+    fn default() -> Self {
+        Self {
+            drt: DrtOptions::default(),
+            weighting: Weighting::Modulus,
+            inductance: InductanceMode::Auto,
+            series_capacitance: false,
+        }
+    }
+}
+
+impl InvertParams {
+    /// Checks every parameter, naming the offending one.
+    pub fn validate(&self) -> Result<()> {
+        self.drt.validate()
+    }
+}
+
+/// The fit of a spectrum, at its frequencies (ascending).
+#[derive(Clone, Debug)]
+pub struct SpectrumFit {
+    /// Fitted real part at each frequency (ohm).
+    pub fit_re_ohm: Vec<f64>,
+    /// Fitted imaginary part (ohm).
+    pub fit_im_ohm: Vec<f64>,
+    /// (fit - data)/|Z|, real part.
+    pub residual_re_rel: Vec<f64>,
+    /// (fit - data)/|Z|, imaginary part.
+    pub residual_im_rel: Vec<f64>,
+}
+
+/// The result of inverting a spectrum.
+pub type SpectrumInversion = Inversion<SpectrumFit>;
+
+/// Whether the highest two frequencies both show an inductive (positive)
+/// imaginary part.
+pub fn looks_inductive(spectrum: &Spectrum) -> bool {
+    highest_two_inductive(&spectrum.z_im_ohm)
+}
+
+fn highest_two_inductive(z_im_ohm: &[f64]) -> bool {
+    let n = z_im_ohm.len();
+    n >= 2 && z_im_ohm[n - 1] > 0.0 && z_im_ohm[n - 2] > 0.0
+}
+
+/// A prepared inversion for every spectrum measured at one set of
+/// frequencies: grid, basis, kernel blocks, penalty, extension prior and,
+/// with unit weighting, the cross products. `Send + Sync`.
+///
+/// ```
+/// use taumap::pipeline::{InvertParams, SpectrumPlan};
+/// use taumap::synth::{log_frequencies, Element, Series};
+///
+/// let f = log_frequencies(1e-1, 1e5, 10.0);
+/// let plan = SpectrumPlan::new(&f, &InvertParams::default())?;
+/// // Two cells measured on the same frequencies, one plan.
+/// for r_ohm in [20.0, 40.0] {
+///     let cell = Series(vec![
+///         Element::Resistor { r_ohm: 5.0 },
+///         Element::Voigt { r_ohm, tau_s: 1e-3 },
+///     ]);
+///     let (re, im) = cell.sample(&f);
+///     let inv = plan.invert(&re, &im, None)?;
+///     assert!((inv.drt.total / r_ohm - 1.0).abs() < 0.01);
+/// }
+/// # Ok::<(), taumap::Error>(())
+/// ```
+#[derive(Clone, Debug)]
+pub struct SpectrumPlan {
+    plan: Plan,
+    params: InvertParams,
+    frequency_hz: Vec<f64>,
+    omega_min: f64,
+    omega_max: f64,
+    /// Plan column of the inductance, when it may be modelled.
+    col_l: Option<usize>,
+    /// Plan column of the series capacitance, when modelled.
+    col_c: Option<usize>,
+}
+
+/// A response turned into the plan's scaled problem.
+struct Scaled {
+    problem: Tikhonov,
+    dropped: Vec<usize>,
+    /// Weight of each frequency (`b_i = w_i z_i`).
+    weight: Vec<f64>,
+    /// |Z_i| (ohm).
+    modulus: Vec<f64>,
+    z_scale: f64,
+}
+
+impl SpectrumPlan {
+    /// Prepares the inversion of spectra measured at `frequency_hz`
+    /// (ascending, positive, distinct).
+    ///
+    /// Fails when the parameters are invalid, fewer than 3 frequencies are
+    /// given, the frequencies are not positive, finite and strictly
+    /// ascending, or the grid cannot be built.
+    pub fn new(frequency_hz: &[f64], params: &InvertParams) -> Result<Self> {
+        params.validate()?;
+        let m = frequency_hz.len();
+        if m < 3 {
+            return Err(Error::Config(format!(
+                "need at least 3 frequencies to invert, found {m}"
+            )));
+        }
+        if let Some(i) = (0..m).find(|&i| {
+            let f = frequency_hz[i];
+            !(f.is_finite() && f > 0.0) || (i > 0 && f <= frequency_hz[i - 1])
+        }) {
+            return Err(Error::Data(format!(
+                "frequency_hz[{i}] = {} must be positive, finite and above the one before",
+                frequency_hz[i]
+            )));
+        }
+        let f_min = frequency_hz[0];
+        let f_max = frequency_hz[m - 1];
+        let band_tau_s = (1.0 / (2.0 * PI * f_max), 1.0 / (2.0 * PI * f_min));
+        let grid = params.drt.grid(band_tau_s.0, band_tau_s.1)?;
+        let basis = Basis::new(params.drt.basis, &grid);
+        let omega: Vec<f64> = frequency_hz.iter().map(|f| 2.0 * PI * f).collect();
+        let kernel = ImpedanceKernel::new(&basis, &omega);
+        let n_gamma = basis.len();
+        let (omega_min, omega_max) = (omega[0], omega[m - 1]);
+        // Series columns, each scaled to be O(1): R_inf on the real rows,
+        // the inductance (in units of 1/omega_max) and the series
+        // capacitance (1/C in units of omega_min) on the imaginary rows.
+        let mut series = vec![(0..2 * m).map(|i| if i < m { 1.0 } else { 0.0 }).collect()];
+        let with_l = !matches!(params.inductance, InductanceMode::Off);
+        let col_l = with_l.then(|| {
+            series.push((0..2 * m).map(|i| if i < m { 0.0 } else { omega[i - m] / omega_max }).collect());
+            n_gamma + series.len() - 1
+        });
+        let col_c = params.series_capacitance.then(|| {
+            series.push((0..2 * m).map(|i| if i < m { 0.0 } else { -omega_min / omega[i - m] }).collect());
+            n_gamma + series.len() - 1
+        });
+        let mut stacked = kernel.re.clone().resize_vertically(2 * m, 0.0);
+        stacked.view_mut((m, 0), (m, n_gamma)).copy_from(&kernel.im);
+        // Unit weighting scales every row by 1/max|Z| and the unknowns by
+        // max|Z|: the design matrix is the kernel itself, the same for
+        // every response.
+        let fixed = matches!(params.weighting, Weighting::Unit).then(|| vec![1.0; 2 * m]);
+        let plan = Plan::new(
+            &params.drt,
+            grid,
+            basis,
+            (band_tau_s.0.ln(), band_tau_s.1.ln()),
+            stacked,
+            &series,
+            fixed.as_deref(),
+            ((0..m).collect(), (m..2 * m).collect()),
+        )?;
+        Ok(Self {
+            plan,
+            params: params.clone(),
+            frequency_hz: frequency_hz.to_vec(),
+            omega_min,
+            omega_max,
+            col_l,
+            col_c,
+        })
+    }
+
+    /// The shared prepared problem.
+    pub fn plan(&self) -> &Plan {
+        &self.plan
+    }
+
+    /// The parameters the plan was built with.
+    pub fn params(&self) -> &InvertParams {
+        &self.params
+    }
+
+    /// The frequencies (Hz), ascending.
+    pub fn frequency_hz(&self) -> &[f64] {
+        &self.frequency_hz
+    }
+
+    fn scale(&self, z_re_ohm: &[f64], z_im_ohm: &[f64]) -> Result<Scaled> {
+        let m = self.frequency_hz.len();
+        if z_re_ohm.len() != m || z_im_ohm.len() != m {
+            return Err(Error::Data(format!(
+                "{m} frequencies but {} real and {} imaginary parts",
+                z_re_ohm.len(),
+                z_im_ohm.len()
+            )));
+        }
+        let modulus: Vec<f64> = z_re_ohm
+            .iter()
+            .zip(z_im_ohm)
+            .map(|(r, i)| r.hypot(*i))
+            .collect();
+        let z_scale = modulus.iter().copied().fold(0.0, f64::max);
+        if z_scale.is_nan() || z_scale <= 0.0 {
+            return Err(Error::Config(
+                "the impedance is zero at every frequency".into(),
+            ));
+        }
+        let weight: Vec<f64> = match self.params.weighting {
+            Weighting::Modulus => modulus
+                .iter()
+                .map(|&z| 1.0 / z.max(1e-12 * z_scale))
+                .collect(),
+            Weighting::Unit => vec![1.0 / z_scale; m],
+        };
+        let row_scale: Option<Vec<f64>> = match self.params.weighting {
+            Weighting::Modulus => Some((0..2 * m).map(|i| weight[i % m] * z_scale).collect()),
+            Weighting::Unit => None,
+        };
+        let b: Vec<f64> = (0..2 * m)
+            .map(|i| {
+                if i < m {
+                    weight[i] * z_re_ohm[i]
+                } else {
+                    weight[i - m] * z_im_ohm[i - m]
+                }
+            })
+            .collect();
+        let dropped: Vec<usize> = match (self.params.inductance, self.col_l) {
+            (InductanceMode::Auto, Some(c)) if !highest_two_inductive(z_im_ohm) => vec![c],
+            _ => Vec::new(),
+        };
+        let problem = self.plan.problem(b, row_scale.as_deref(), &dropped)?;
+        Ok(Scaled {
+            problem,
+            dropped,
+            weight,
+            modulus,
+            z_scale,
+        })
+    }
+
+    /// The scaled regularised problem `min ||A x - b||^2 + lambda x'Mx,
+    /// x >= 0` that [`SpectrumPlan::invert`] solves for this response, for
+    /// independent solvers and diagnostics. Columns: basis coefficients,
+    /// then R_inf, then the inductance and series-capacitance columns when
+    /// modelled; all in units of `max |Z|`.
+    pub fn problem(&self, z_re_ohm: &[f64], z_im_ohm: &[f64]) -> Result<Tikhonov> {
+        Ok(self.scale(z_re_ohm, z_im_ohm)?.problem)
+    }
+
+    /// Inverts one spectrum measured at the plan's frequencies, optionally
+    /// warm-started from a neighbouring result
+    /// ([`crate::pipeline::Distribution::warm_start`]).
+    ///
+    /// Fails when the lengths differ from the plan's, a value is not
+    /// finite, or the impedance is zero everywhere.
+    pub fn invert(
+        &self,
+        z_re_ohm: &[f64],
+        z_im_ohm: &[f64],
+        warm: Option<&WarmStart>,
+    ) -> Result<SpectrumInversion> {
+        let d = self.scale(z_re_ohm, z_im_ohm)?;
+        let solved = self.plan.solve(&d.problem, &d.dropped, None, warm);
+        let m = self.frequency_hz.len();
+        let n = self.plan.n_gamma();
+        let x = &solved.x;
+        let coeffs_ohm: Vec<f64> = x[..n].iter().map(|v| v * d.z_scale).collect();
+        let series = SeriesTerms {
+            instantaneous: Some(x[n] * d.z_scale),
+            inductance_h: self
+                .col_l
+                .filter(|c| !d.dropped.contains(c))
+                .map(|c| x[c] * d.z_scale / self.omega_max),
+            series_capacitance_f: self.col_c.map(|c| {
+                let inv_c = x[c] * d.z_scale * self.omega_min;
+                if inv_c > 0.0 {
+                    1.0 / inv_c
+                } else {
+                    f64::INFINITY
+                }
+            }),
+        };
+        let pred = &solved.prediction;
+        let fit_re_ohm: Vec<f64> = (0..m).map(|i| pred[i] / d.weight[i]).collect();
+        let fit_im_ohm: Vec<f64> = (0..m).map(|i| pred[m + i] / d.weight[i]).collect();
+        let modulus: Vec<f64> = d.modulus.iter().map(|z| z.max(1e-300)).collect();
+        let residual_re_rel: Vec<f64> = (0..m)
+            .map(|i| (fit_re_ohm[i] - z_re_ohm[i]) / modulus[i])
+            .collect();
+        let residual_im_rel: Vec<f64> = (0..m)
+            .map(|i| (fit_im_ohm[i] - z_im_ohm[i]) / modulus[i])
+            .collect();
+        let residual_rms_rel = ((residual_re_rel.iter().map(|r| r * r).sum::<f64>()
+            + residual_im_rel.iter().map(|r| r * r).sum::<f64>())
+            / (2 * m) as f64)
+            .sqrt();
+        // A process whose resistance is below ~3 times the absolute noise of
+        // the fit cannot be told from the residual (common practice).
+        let mut sorted = modulus;
+        sorted.sort_by(f64::total_cmp);
+        let min_area = 3.0 * residual_rms_rel * sorted[m / 2];
+        let drt = self.plan.distribution(
+            DistributionUnit::Ohm,
+            coeffs_ohm,
+            series,
+            min_area,
+            residual_rms_rel,
+            solved,
+            Vec::new(),
+        );
+        Ok(Inversion {
+            drt,
+            fit: SpectrumFit {
+                fit_re_ohm,
+                fit_im_ohm,
+                residual_re_rel,
+                residual_im_rel,
+            },
+        })
+    }
+}
+
+/// The scaled regularised problem that [`invert`] solves for this spectrum
+/// (see [`SpectrumPlan::problem`]).
+pub fn problem(spectrum: &Spectrum, params: &InvertParams) -> Result<Tikhonov> {
+    SpectrumPlan::new(&spectrum.frequency_hz, params)?
+        .problem(&spectrum.z_re_ohm, &spectrum.z_im_ohm)
+}
+
+/// Inverts a spectrum onto a DRT: a [`SpectrumPlan`] used once.
+///
+/// Fails when the parameters are invalid, the grid cannot be built, or the
+/// spectrum has fewer than 3 points or is zero everywhere.
+pub fn invert(spectrum: &Spectrum, params: &InvertParams) -> Result<SpectrumInversion> {
+    SpectrumPlan::new(&spectrum.frequency_hz, params)?.invert(
+        &spectrum.z_re_ohm,
+        &spectrum.z_im_ohm,
+        None,
+    )
+}

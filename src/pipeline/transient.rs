@@ -1,0 +1,584 @@
+//! The transient front end: a step transient to a distribution of time
+//! constants, by the same regularised, non-negative inversion as for
+//! spectra, on time-domain kernels.
+//!
+//! # Models
+//! With `y = ln tau` and `t > 0` the time since the step:
+//!
+//! - **Current step** of amplitude `I` (galvanostatic):
+//!   $$ v(t) - v(0^-) = I \Bigl[R_\infty + \int \gamma(y)\,(1 - e^{-t/\tau})\,dy \;\bigl(+\, t / C\bigr)\Bigr] $$
+//!   `gamma` in ohm is the impedance DRT of the same system: a Voigt element
+//!   R || C has impedance R/(1 + j w tau) and step response R (1 - e^{-t/tau})
+//!   (Laplace transform of the impedance times I/s; textbook first-order
+//!   network). The optional `t/C` is a blocking series capacitance.
+//! - **Relaxation** after a long constant current `I` is interrupted at t = 0:
+//!   $$ v(t) = v_\infty + I \int \gamma(y)\, e^{-t/\tau}\,dy $$
+//!   with the final value `v_inf` an unknown of the fit. When the pre-step
+//!   voltage `v(0-)` is known, the series resistance follows from the
+//!   instantaneous jump: `R_inf = (v(0-) - v_inf)/I - R_pol`.
+//! - **Voltage step** of amplitude `U` (potentiostatic):
+//!   $$ i(t) - i(0^-) = U \Bigl[G_\infty + \int g(y)\, e^{-t/\tau}\,dy\Bigr] $$
+//!   with `g >= 0` in siemens: the distribution of the admittance, not the
+//!   impedance DRT. The admittance of a network of resistors and capacitors
+//!   has non-negative residues in its partial-fraction (Foster) form
+//!   (E. A. Guillemin (1957), *Synthesis of Passive Networks*, Wiley, ch. 4;
+//!   recalled from memory), so its step current is a non-negative mixture of
+//!   decaying exponentials. A series R-C gives `i = (U/R) e^{-t/(RC)}`: one
+//!   line of weight 1/R at tau = RC.
+//!
+//! The baseline `v(0-)` (or `i(0-)`) comes from the samples at t < 0, or is
+//! given; without either the values are taken as changes from the pre-step
+//! state. From post-step samples alone the series resistance and the
+//! baseline cannot both be found: both add a constant to every sample.
+//!
+//! # Discretisation
+//! The distribution is expanded on the same basis as for spectra, the kernel
+//! columns are those of [`crate::kernel::step`] evaluated at the binned
+//! times of [`crate::pipeline::binning`], each row is weighted by the square
+//! root of its sample count (normalised to a mean weight of 1), and the
+//! unknowns are scaled by the largest response `max |y|` so that `lambda` is
+//! dimensionless and comparable with the spectrum case. The tau grid spans
+//! the first bin's time to the last, extended as for spectra.
+//!
+//! # Example
+//! ```
+//! use taumap::pipeline::binning::{BinOptions, BinnedTransient};
+//! use taumap::pipeline::{StepKind, TransientParams, invert_transient};
+//!
+//! // 2 ohm + Voigt(10 ohm, 1 ms) under a 0.1 A step, 10 us sampling for 50 ms.
+//! let t: Vec<f64> = (1..=5000).map(|k| k as f64 * 1e-5).collect();
+//! let v: Vec<f64> = t.iter().map(|t| 0.1 * (2.0 + 10.0 * (1.0 - (-t / 1e-3).exp()))).collect();
+//! let record = BinnedTransient::from_samples(&t, &v, &BinOptions::default())?;
+//! let inv = invert_transient(&record, &TransientParams::new(StepKind::CurrentStep { current_a: 0.1 }))?;
+//! assert_eq!(inv.drt.peaks.len(), 1);
+//! assert!((inv.drt.peaks[0].tau_s.log10() + 3.0).abs() < 0.05);
+//! assert!((inv.drt.total - 10.0).abs() < 0.1);
+//! assert!((inv.drt.series.instantaneous.unwrap() - 2.0).abs() < 0.05);
+//! # Ok::<(), taumap::Error>(())
+//! ```
+
+use super::binning::{BinnedTransient, MIN_BINS};
+use super::options::DrtOptions;
+use super::plan::Plan;
+use super::result::{DistributionUnit, Inversion, SeriesTerms, WarmStart};
+use crate::io::transient::Quantity;
+use crate::kernel::{Basis, StepShape, step::step_kernel_dense};
+use crate::solve::Tikhonov;
+use crate::{Error, Result};
+
+/// The kind of step and its amplitude.
+#[derive(Clone, Copy, Debug, PartialEq, serde::Serialize)]
+#[serde(rename_all = "snake_case", tag = "kind")]
+pub enum StepKind {
+    /// Current step of `current_a` at t = 0; the voltage is measured.
+    CurrentStep {
+        /// Step amplitude (A); negative for a discharge step.
+        current_a: f64,
+    },
+    /// A constant `current_a` flowed until t = 0, then was interrupted; the
+    /// voltage is measured.
+    Relaxation {
+        /// The current before the interruption (A).
+        current_a: f64,
+    },
+    /// Voltage step of `voltage_v` at t = 0; the current is measured.
+    VoltageStep {
+        /// Step amplitude (V).
+        voltage_v: f64,
+    },
+}
+
+impl StepKind {
+    /// The step amplitude (A or V).
+    pub fn amplitude(self) -> f64 {
+        match self {
+            StepKind::CurrentStep { current_a } | StepKind::Relaxation { current_a } => current_a,
+            StepKind::VoltageStep { voltage_v } => voltage_v,
+        }
+    }
+
+    /// The quantity the record holds: voltage for current steps and
+    /// relaxations, current for voltage steps.
+    pub fn quantity(self) -> Quantity {
+        match self {
+            StepKind::VoltageStep { .. } => Quantity::Current,
+            _ => Quantity::Voltage,
+        }
+    }
+
+    /// The unit of the distribution this step yields.
+    pub fn unit(self) -> DistributionUnit {
+        match self {
+            StepKind::VoltageStep { .. } => DistributionUnit::Siemens,
+            _ => DistributionUnit::Ohm,
+        }
+    }
+
+    fn shape(self) -> StepShape {
+        match self {
+            StepKind::CurrentStep { .. } => StepShape::Rise,
+            _ => StepShape::Decay,
+        }
+    }
+}
+
+/// Where the pre-step value came from.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, serde::Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum BaselineSource {
+    /// The mean of the samples at t < 0.
+    PreStepSamples,
+    /// Given by the user.
+    Given,
+    /// Neither: the values are taken as changes from the pre-step state.
+    None,
+}
+
+/// Parameters of a transient inversion.
+#[derive(Clone, Debug, PartialEq)]
+pub struct TransientParams {
+    /// Grid, basis, penalty, lambda and peak options (shared with spectra).
+    pub drt: DrtOptions,
+    /// The step and its amplitude.
+    pub step: StepKind,
+    /// Pre-step value `v(0-)` (V) or `i(0-)` (A); overrides t < 0 samples.
+    pub baseline: Option<f64>,
+    /// Fit a blocking series capacitance (current steps only).
+    pub series_capacitance: bool,
+}
+
+/// Default grid density for transients (points per decade of tau).
+///
+/// Twice the spectrum default: a step response carries no phase, so a sharp
+/// process is drawn as one basis function, whose width then shows in the fit.
+/// A single R || C line drawn by one Gaussian of FWHM 1.5 steps misfits its
+/// own exponential by 0.27 % of the step (rms) at 10 per decade and by
+/// 0.075 % at 20 (measured on the series R-C case of tests/transient.rs),
+/// below the 0.1 % noise of a good potentiostat channel (our choice).
+pub const TRANSIENT_PER_DECADE: f64 = 20.0;
+
+impl TransientParams {
+    /// Parameters for `step` with the default [`DrtOptions`] at
+    /// [`TRANSIENT_PER_DECADE`] grid points per decade.
+    pub fn new(step: StepKind) -> Self {
+        Self {
+            drt: DrtOptions {
+                per_decade: TRANSIENT_PER_DECADE,
+                ..DrtOptions::default()
+            },
+            step,
+            baseline: None,
+            series_capacitance: false,
+        }
+    }
+
+    /// Checks every parameter, naming the offending one.
+    pub fn validate(&self) -> Result<()> {
+        self.drt.validate()?;
+        let a = self.step.amplitude();
+        if !(a.is_finite() && a != 0.0) {
+            let name = match self.step {
+                StepKind::CurrentStep { .. } => "current-step-a",
+                StepKind::Relaxation { .. } => "relaxation-current-a",
+                StepKind::VoltageStep { .. } => "voltage-step-v",
+            };
+            return Err(Error::Param {
+                name,
+                expected: "a finite, non-zero amplitude",
+                value: a,
+            });
+        }
+        if let Some(b) = self.baseline
+            && !b.is_finite()
+        {
+            return Err(Error::Param {
+                name: "baseline",
+                expected: "a finite value",
+                value: b,
+            });
+        }
+        if self.series_capacitance && !matches!(self.step, StepKind::CurrentStep { .. }) {
+            return Err(Error::Config(
+                "a series capacitance can only be fitted to a current step".into(),
+            ));
+        }
+        Ok(())
+    }
+}
+
+/// A passive cell's response moves one way: `y = response / amplitude`
+/// rises after a current step and falls during a relaxation or after a
+/// voltage step (every kernel column is monotone that way). A clear move the
+/// other way (the mean of the last three bins beyond the first three by more
+/// than a quarter of the response's range) almost always means the sign of
+/// the amplitude is wrong.
+fn direction_warning(step: StepKind, y: &[f64]) -> Option<String> {
+    let k = 3.min(y.len());
+    let mean = |s: &[f64]| s.iter().sum::<f64>() / s.len() as f64;
+    let change = mean(&y[y.len() - k..]) - mean(&y[..k]);
+    let (lo, hi) = y
+        .iter()
+        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), v| {
+            (a.min(*v), b.max(*v))
+        });
+    let against = match step {
+        StepKind::CurrentStep { .. } => -change,
+        _ => change,
+    };
+    if against <= 0.25 * (hi - lo) {
+        return None;
+    }
+    Some(match step {
+        StepKind::CurrentStep { current_a } => format!(
+            "the voltage moves against the current step of {current_a} A (a passive cell's voltage \
+             follows the current: up for a positive step into the positive terminal); check the sign"
+        ),
+        StepKind::Relaxation { current_a } => format!(
+            "the voltage moves the way the interrupted current of {current_a} A would drive it, \
+             not back towards rest; check the sign of the current"
+        ),
+        StepKind::VoltageStep { voltage_v } => format!(
+            "the current grows in the direction of the voltage step of {voltage_v} V instead of \
+             decaying; check the sign of the step"
+        ),
+    })
+}
+
+/// The fit of a transient, one entry per time bin.
+#[derive(Clone, Debug)]
+pub struct TransientFit {
+    /// The step that was inverted.
+    pub step: StepKind,
+    /// Pre-step value used (V or A), if any.
+    pub baseline: Option<f64>,
+    /// Where it came from.
+    pub baseline_source: BaselineSource,
+    /// Final value `v_inf` (V) of a relaxation.
+    pub final_value: Option<f64>,
+    /// Mean time of each bin (s).
+    pub time_s: Vec<f64>,
+    /// Samples in each bin.
+    pub counts: Vec<usize>,
+    /// Mean measured value of each bin (V or A).
+    pub measured: Vec<f64>,
+    /// Fitted value at each bin (V or A).
+    pub fitted: Vec<f64>,
+    /// Size of the step response in the measured unit (V or A):
+    /// `|amplitude| * max |y|`, the largest change the fit explains.
+    pub response_span: f64,
+    /// (fitted - measured) / `response_span` per bin.
+    pub residual_rel: Vec<f64>,
+}
+
+/// The result of inverting a transient.
+pub type TransientInversion = Inversion<TransientFit>;
+
+/// A prepared inversion for every transient binned onto one time axis (the
+/// same bin times, spreads and counts) with one kind of step: grid, basis,
+/// step kernel with its bin correction, penalty, extension prior and cross
+/// products. `Send + Sync`.
+#[derive(Clone, Debug)]
+pub struct TransientPlan {
+    plan: Plan,
+    params: TransientParams,
+    time_s: Vec<f64>,
+    counts: Vec<usize>,
+    /// Square root of each bin's count over the mean count.
+    row_scale: Vec<f64>,
+    col_c: Option<usize>,
+    t_max: f64,
+}
+
+/// A response turned into the plan's scaled problem.
+struct Scaled {
+    problem: Tikhonov,
+    baseline: Option<f64>,
+    baseline_source: BaselineSource,
+    /// Offset subtracted from `y` before the fit (relaxation reference).
+    y_ref: f64,
+    /// Largest |d_i|, the unit of the unknowns.
+    y_scale: f64,
+    warnings: Vec<String>,
+}
+
+impl TransientPlan {
+    /// Prepares the inversion of transients on the time axis of `record`
+    /// (its bins' times, spreads and counts, and its first and last sample
+    /// times); the bins' values are not used.
+    ///
+    /// Fails when the parameters are invalid, fewer than [`MIN_BINS`] bins
+    /// hold the response, or the grid cannot be built.
+    pub fn new(record: &BinnedTransient, params: &TransientParams) -> Result<Self> {
+        params.validate()?;
+        let bins = &record.bins;
+        let m = bins.len();
+        if m < MIN_BINS {
+            return Err(Error::Config(format!(
+                "need samples after the step in at least {MIN_BINS} time bins, found {m}"
+            )));
+        }
+        let t: Vec<f64> = bins.iter().map(|b| b.time_s).collect();
+        let var: Vec<f64> = bins.iter().map(|b| b.time_var_s2).collect();
+        let t_max = t[m - 1];
+        // The band the record resolves: first fitted sample to record length.
+        let (band_lo, band_hi) =
+            if record.first_time_s > 0.0 && record.last_time_s > record.first_time_s {
+                (record.first_time_s, record.last_time_s)
+            } else {
+                (t[0], t_max)
+            };
+        let grid = params.drt.grid(band_lo, band_hi)?;
+        let basis = Basis::new(params.drt.basis, &grid);
+        let kernel = step_kernel_dense(&basis, params.step.shape(), &t, &var);
+        let mean_count = bins.iter().map(|b| b.count as f64).sum::<f64>() / m as f64;
+        let row_scale: Vec<f64> = bins
+            .iter()
+            .map(|b| (b.count as f64 / mean_count).sqrt())
+            .collect();
+        // The constant: R_inf or G_inf after a step; during a relaxation the
+        // (negated) offset of the final value from the reference.
+        let const_sign = if matches!(params.step, StepKind::Relaxation { .. }) {
+            -1.0
+        } else {
+            1.0
+        };
+        let mut series = vec![vec![const_sign; m]];
+        let col_c = params.series_capacitance.then(|| {
+            series.push(t.iter().map(|ti| ti / t_max).collect());
+            basis.len() + 1
+        });
+        let even: Vec<usize> = (0..m).step_by(2).collect();
+        let odd: Vec<usize> = (1..m).step_by(2).collect();
+        let plan = Plan::new(
+            &params.drt,
+            grid,
+            basis,
+            (band_lo.ln(), band_hi.ln()),
+            kernel,
+            &series,
+            Some(&row_scale),
+            (even, odd),
+        )?;
+        Ok(Self {
+            plan,
+            params: params.clone(),
+            time_s: t,
+            counts: bins.iter().map(|b| b.count).collect(),
+            row_scale,
+            col_c,
+            t_max,
+        })
+    }
+
+    /// The shared prepared problem.
+    pub fn plan(&self) -> &Plan {
+        &self.plan
+    }
+
+    /// The parameters the plan was built with.
+    pub fn params(&self) -> &TransientParams {
+        &self.params
+    }
+
+    /// Mean time of each bin (s).
+    pub fn time_s(&self) -> &[f64] {
+        &self.time_s
+    }
+
+    fn scale(&self, values: &[f64], pre_step_mean: Option<f64>) -> Result<Scaled> {
+        let m = self.time_s.len();
+        if values.len() != m {
+            return Err(Error::Data(format!(
+                "the plan has {m} time bins but the response gives {} values",
+                values.len()
+            )));
+        }
+        let p = &self.params;
+        let (baseline, baseline_source) = match (p.baseline, pre_step_mean) {
+            (Some(b), _) => (Some(b), BaselineSource::Given),
+            (None, Some(b)) => (Some(b), BaselineSource::PreStepSamples),
+            (None, None) => (None, BaselineSource::None),
+        };
+        let amp = p.step.amplitude();
+        let relaxation = matches!(p.step, StepKind::Relaxation { .. });
+        let y: Vec<f64> = values
+            .iter()
+            .map(|v| {
+                if relaxation {
+                    v / amp
+                } else {
+                    (v - baseline.unwrap_or(0.0)) / amp
+                }
+            })
+            .collect();
+        // A relaxation decays towards an unknown v_inf/I <= every sample (the
+        // unrelaxed part is non-negative), so y - max(y) = -s + decay with s >= 0.
+        let y_ref = if relaxation {
+            y.iter().copied().fold(f64::NEG_INFINITY, f64::max)
+        } else {
+            0.0
+        };
+        let d: Vec<f64> = y.iter().map(|v| v - y_ref).collect();
+        let warnings = direction_warning(p.step, &y).into_iter().collect();
+        let y_scale = d.iter().fold(0.0f64, |a, v| a.max(v.abs()));
+        if !(y_scale > 0.0 && y_scale.is_finite()) {
+            return Err(Error::Config(
+                "the response does not change over the record (every bin holds the same value)"
+                    .into(),
+            ));
+        }
+        // Row weight sqrt(n_i / mean n) / y_scale: the unknowns come out in
+        // units of y_scale, the design matrix is the plan's.
+        let b: Vec<f64> = (0..m).map(|i| self.row_scale[i] / y_scale * d[i]).collect();
+        let problem = self.plan.problem(b, None, &[])?;
+        Ok(Scaled {
+            problem,
+            baseline,
+            baseline_source,
+            y_ref,
+            y_scale,
+            warnings,
+        })
+    }
+
+    fn check_axis(&self, record: &BinnedTransient) -> Result<Vec<f64>> {
+        let same = record.bins.len() == self.time_s.len()
+            && record
+                .bins
+                .iter()
+                .zip(&self.time_s)
+                .zip(&self.counts)
+                .all(|((b, t), n)| b.time_s.to_bits() == t.to_bits() && b.count == *n);
+        if !same {
+            return Err(Error::Data(format!(
+                "the record's {} time bins differ from the plan's {} (times or sample counts): \
+                 build a plan for this record's time axis",
+                record.bins.len(),
+                self.time_s.len()
+            )));
+        }
+        Ok(record.bins.iter().map(|b| b.value).collect())
+    }
+
+    /// The scaled regularised problem that [`TransientPlan::invert`] solves
+    /// for `record`, for independent solvers and diagnostics. Columns:
+    /// basis coefficients, the constant (R_inf, G_inf, or the relaxation
+    /// offset), then the series capacitance column when modelled; all in
+    /// units of the largest response.
+    pub fn problem(&self, record: &BinnedTransient) -> Result<Tikhonov> {
+        let values = self.check_axis(record)?;
+        Ok(self.scale(&values, record.pre_step_mean)?.problem)
+    }
+
+    /// Inverts a record binned onto the plan's time axis.
+    ///
+    /// Fails when the record's bins differ from the plan's or the response
+    /// is flat.
+    pub fn invert(
+        &self,
+        record: &BinnedTransient,
+        warm: Option<&WarmStart>,
+    ) -> Result<TransientInversion> {
+        let values = self.check_axis(record)?;
+        self.invert_values(&values, record.pre_step_mean, warm)
+    }
+
+    /// Inverts the bin means `values` (V or A, one per bin of the plan's
+    /// axis) with the pre-step mean `pre_step_mean`, if known.
+    ///
+    /// Fails when the number of values differs from the plan's bins, a
+    /// value is not finite, or the response is flat.
+    pub fn invert_values(
+        &self,
+        values: &[f64],
+        pre_step_mean: Option<f64>,
+        warm: Option<&WarmStart>,
+    ) -> Result<TransientInversion> {
+        let d = self.scale(values, pre_step_mean)?;
+        let solved = self.plan.solve(&d.problem, &[], None, warm);
+        let m = self.time_s.len();
+        let n = self.plan.n_gamma();
+        let s = d.y_scale;
+        let x = &solved.x;
+        let coeffs: Vec<f64> = x[..n].iter().map(|v| v * s).collect();
+        let total = coeffs.iter().sum::<f64>() * self.plan.basis().integral();
+        let constant = x[n] * s;
+        let series_capacitance_f = self.col_c.map(|c| {
+            let u = x[c] * s;
+            if u > 0.0 { self.t_max / u } else { f64::INFINITY }
+        });
+        let step = self.params.step;
+        let amp = step.amplitude();
+        let pred = &solved.prediction;
+        let fitted: Vec<f64> = (0..m)
+            .map(|i| {
+                let model = pred[i] / (self.row_scale[i] / s) + d.y_ref;
+                match step {
+                    StepKind::Relaxation { .. } => amp * model,
+                    _ => d.baseline.unwrap_or(0.0) + amp * model,
+                }
+            })
+            .collect();
+        let span = amp.abs() * s;
+        let residual_rel: Vec<f64> = (0..m).map(|i| (fitted[i] - values[i]) / span).collect();
+        let residual_rms_rel =
+            (residual_rel.iter().map(|r| r * r).sum::<f64>() / m as f64).sqrt();
+        let (instantaneous, final_value) = match step {
+            StepKind::CurrentStep { .. } | StepKind::VoltageStep { .. } => (Some(constant), None),
+            StepKind::Relaxation { current_a } => {
+                let v_inf = current_a * (d.y_ref - constant);
+                let r_inf = d.baseline.map(|v0| (v0 - v_inf) / current_a - total);
+                (r_inf, Some(v_inf))
+            }
+        };
+        // A process smaller than ~3 times the fit's residual cannot be told
+        // from noise (common practice).
+        let min_area = 3.0 * residual_rms_rel * s;
+        let drt = self.plan.distribution(
+            step.unit(),
+            coeffs,
+            SeriesTerms {
+                instantaneous,
+                inductance_h: None,
+                series_capacitance_f,
+            },
+            min_area,
+            residual_rms_rel,
+            solved,
+            d.warnings,
+        );
+        Ok(Inversion {
+            drt,
+            fit: TransientFit {
+                step,
+                baseline: d.baseline,
+                baseline_source: d.baseline_source,
+                final_value,
+                time_s: self.time_s.clone(),
+                counts: self.counts.clone(),
+                measured: values.to_vec(),
+                fitted,
+                response_span: span,
+                residual_rel,
+            },
+        })
+    }
+}
+
+/// The scaled regularised problem that [`invert_transient`] solves (see
+/// [`TransientPlan::problem`]).
+pub fn transient_problem(record: &BinnedTransient, params: &TransientParams) -> Result<Tikhonov> {
+    TransientPlan::new(record, params)?.problem(record)
+}
+
+/// Inverts a binned transient onto a distribution of time constants: a
+/// [`TransientPlan`] used once.
+///
+/// Fails when the parameters are invalid, the grid cannot be built, fewer
+/// than [`MIN_BINS`] bins hold the response, or the response is flat.
+pub fn invert_transient(
+    record: &BinnedTransient,
+    params: &TransientParams,
+) -> Result<TransientInversion> {
+    TransientPlan::new(record, params)?.invert(record, None)
+}
