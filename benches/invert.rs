@@ -1,14 +1,17 @@
 //! Criterion benchmarks of the inversion (no plotting).
 //!
 //! Spectrum: 81 points, 10 per decade from 1e-2 to 1e6 Hz, ZARC + Voigt element
-//! with 0.5 % noise (seed 1). Results: docs/performance.md.
+//! with 0.5 % noise (seed 1). The `plan` group measures the per-response cost
+//! through a prepared `SpectrumPlan` (built once) and the cost of building
+//! one. Results: docs/performance.md.
 
 use criterion::{Criterion, criterion_group, criterion_main};
 use std::hint::black_box;
-use taumap::invert::{DrtOptions, InvertParams, LambdaChoice, invert, problem};
 use taumap::io::Spectrum;
 use taumap::kernel::{Basis, BasisKind, ImpedanceKernel};
 use taumap::lambda::LambdaRule;
+use taumap::pipeline::spectrum::problem;
+use taumap::pipeline::{DrtOptions, InvertParams, LambdaChoice, SpectrumPlan, invert};
 use taumap::synth::{cells, reference_spectrum};
 
 fn spectrum() -> Spectrum {
@@ -68,10 +71,44 @@ fn benches(c: &mut Criterion) {
     });
 }
 
+/// Per-response cost through a prepared plan: the plan is built once, outside
+/// the timed closure, and each iteration inverts the same 81-point spectrum.
+fn plan_benches(c: &mut Criterion) {
+    let s = spectrum();
+    let auto = InvertParams::default();
+    let fixed = with_drt(DrtOptions {
+        lambda: LambdaChoice::Fixed(1e-3),
+        ..DrtOptions::default()
+    });
+    let mut group = c.benchmark_group("plan");
+    let plan_fixed = SpectrumPlan::new(&s.frequency_hz, &fixed).expect("plan builds");
+    group.bench_function("invert_fixed_lambda", |b| {
+        b.iter(|| {
+            plan_fixed
+                .invert(black_box(&s.z_re_ohm), black_box(&s.z_im_ohm), None)
+                .expect("inverts")
+        })
+    });
+    let plan_auto = SpectrumPlan::new(&s.frequency_hz, &auto).expect("plan builds");
+    group.bench_function("invert_auto_default_rule", |b| {
+        b.iter(|| {
+            plan_auto
+                .invert(black_box(&s.z_re_ohm), black_box(&s.z_im_ohm), None)
+                .expect("inverts")
+        })
+    });
+    group.bench_function("build", |b| {
+        b.iter(|| {
+            SpectrumPlan::new(black_box(&s.frequency_hz), black_box(&auto)).expect("plan builds")
+        })
+    });
+    group.finish();
+}
+
 criterion_group! {
     name = invert_benches;
     // Criterion's own HTML plots are not needed (and need system fonts).
     config = Criterion::default().without_plots();
-    targets = benches
+    targets = benches, plan_benches
 }
 criterion_main!(invert_benches);

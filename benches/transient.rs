@@ -9,10 +9,11 @@ use criterion::{Criterion, criterion_group, criterion_main};
 use std::fmt::Write as _;
 use std::hint::black_box;
 use std::path::Path;
-use taumap::io::transient::{BinOptions, BinnedTransient, Quantity, parse_transient};
+use taumap::io::transient::{Quantity, parse_transient};
 use taumap::kernel::{Basis, BasisKind, StepShape, step_kernel};
+use taumap::pipeline::binning::{BinOptions, BinnedTransient};
+use taumap::pipeline::{StepKind, TransientParams, invert_transient};
 use taumap::synth::{add_white_noise, cells};
-use taumap::transient::{StepKind, TransientParams, invert_transient};
 
 fn record() -> (Vec<f64>, Vec<f64>) {
     let cell = cells::zarc_plus_voigt();

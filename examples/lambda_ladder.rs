@@ -4,8 +4,7 @@
 //! Run: `cargo run --release --example lambda_ladder [penalty orders...]`
 //! Prints a Markdown table. Seeds are fixed, so the table is reproducible.
 
-use taumap::invert::{DrtOptions, InvertParams, LambdaChoice, invert};
-use taumap::lambda::LambdaRule;
+use taumap::pipeline::{DrtOptions, InvertParams, LambdaChoice, LambdaRule, invert};
 use taumap::synth::{Series, cells, reference_spectrum};
 
 struct Case {
@@ -89,12 +88,16 @@ fn main() {
                         let inv = invert(&s, &p).expect("inversion runs");
                         total += 1;
                         let want = case.cell.r_pol_ohm();
-                        let e_rpol = (inv.r_pol_ohm - want).abs() / want;
+                        let e_rpol = (inv.drt.total - want).abs() / want;
                         drpol += e_rpol;
                         let found: Vec<f64> = if case.first_only {
-                            inv.peaks.last().map(|p| vec![p.tau_s]).unwrap_or_default()
+                            inv.drt
+                                .peaks
+                                .last()
+                                .map(|p| vec![p.tau_s])
+                                .unwrap_or_default()
                         } else {
-                            inv.peaks.iter().map(|p| p.tau_s).collect()
+                            inv.drt.peaks.iter().map(|p| p.tau_s).collect()
                         };
                         let n_ok = found.len() == case.peaks_tau_s.len();
                         let mut tau_ok = n_ok;
@@ -111,6 +114,7 @@ fn main() {
                             pass += 1;
                         } else if std::env::var_os("LADDER_VERBOSE").is_some() {
                             let got: Vec<String> = inv
+                                .drt
                                 .peaks
                                 .iter()
                                 .map(|p| format!("{:.2}@{:.2}", p.tau_s.log10(), p.area))

@@ -6,10 +6,9 @@
 //! Prints a Markdown table. Seeds are fixed, so the table is reproducible;
 //! `LADDER_VERBOSE=1` lists the failures.
 
-use taumap::io::transient::{BinOptions, BinnedTransient};
-use taumap::lambda::{LambdaChoice, LambdaRule};
+use taumap::pipeline::binning::{BinOptions, BinnedTransient};
+use taumap::pipeline::{LambdaChoice, LambdaRule, StepKind, TransientParams, invert_transient};
 use taumap::synth::{Element, Series, add_white_noise, cells, log_times};
-use taumap::transient::{StepKind, TransientParams, invert_transient};
 
 struct Case {
     name: &'static str,
@@ -131,13 +130,13 @@ fn main() {
                         let inv = invert_transient(&rec, &p).expect("inversion runs");
                         total += 1;
                         let want: f64 = case.peaks.iter().map(|p| p.1).sum();
-                        let e_sum = (inv.total - want).abs() / want;
+                        let e_sum = (inv.drt.total - want).abs() / want;
                         dsum += e_sum;
-                        let n_ok = inv.peaks.len() == case.peaks.len();
+                        let n_ok = inv.drt.peaks.len() == case.peaks.len();
                         let mut ok = n_ok && e_sum <= 0.03;
                         if n_ok {
                             count_ok += 1;
-                            for (got, (tau, _)) in inv.peaks.iter().zip(&case.peaks) {
+                            for (got, (tau, _)) in inv.drt.peaks.iter().zip(&case.peaks) {
                                 let d = (got.tau_s / tau).log10().abs();
                                 dtau += d;
                                 ntau += 1;
@@ -150,6 +149,7 @@ fn main() {
                             pass += 1;
                         } else if std::env::var_os("LADDER_VERBOSE").is_some() {
                             let got: Vec<String> = inv
+                                .drt
                                 .peaks
                                 .iter()
                                 .map(|p| format!("{:.2}@{:.4}", p.tau_s.log10(), p.area))

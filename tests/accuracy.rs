@@ -4,17 +4,19 @@
 //! 1e6 Hz at 10 points per decade unless said otherwise; noise is proportional
 //! Gaussian with a fixed seed.
 
-use taumap::invert::{DrtOptions, InductanceMode, Inversion, InvertParams, LambdaChoice, invert};
 use taumap::io::Spectrum;
 use taumap::kernel::BasisKind;
 use taumap::lambda::LambdaRule;
+use taumap::pipeline::{
+    DrtOptions, InductanceMode, InvertParams, LambdaChoice, SpectrumInversion, invert,
+};
 use taumap::synth::{Element, Series, cells, log_frequencies, reference_spectrum};
 
 fn spectrum(cell: &Series, noise: f64, seed: u64) -> Spectrum {
     reference_spectrum(cell, noise, seed).unwrap()
 }
 
-fn run(s: &Spectrum) -> Inversion {
+fn run(s: &Spectrum) -> SpectrumInversion {
     invert(s, &InvertParams::default()).unwrap()
 }
 
@@ -36,19 +38,19 @@ fn voigt_element_gives_one_peak_at_rc() {
         },
     ]);
     let inv = run(&spectrum(&cell, 0.0, 0));
-    assert_eq!(inv.peaks.len(), 1, "{:?}", inv.peaks);
+    assert_eq!(inv.drt.peaks.len(), 1, "{:?}", inv.drt.peaks);
     assert!(
-        decades(inv.peaks[0].tau_s, 1e-3) < 0.05,
+        decades(inv.drt.peaks[0].tau_s, 1e-3) < 0.05,
         "tau {}",
-        inv.peaks[0].tau_s
+        inv.drt.peaks[0].tau_s
     );
     assert!(
-        (inv.r_pol_ohm - r).abs() < 0.01 * r,
+        (inv.drt.total - r).abs() < 0.01 * r,
         "r_pol {}",
-        inv.r_pol_ohm
+        inv.drt.total
     );
-    assert!((inv.peaks[0].area - r).abs() < 0.01 * r);
-    assert!((inv.r_inf_ohm - 10.0).abs() < 0.1);
+    assert!((inv.drt.peaks[0].area - r).abs() < 0.01 * r);
+    assert!((inv.drt.series.instantaneous.unwrap() - 10.0).abs() < 0.1);
 }
 
 /// ZARC R/(1 + (j w tau0)^phi): its DRT is the Fuoss-Kirkwood distribution
@@ -63,19 +65,20 @@ fn zarc_matches_fuoss_kirkwood_distribution() {
     let cell = Series(vec![Element::Resistor { r_ohm: 10.0 }, zarc]);
     let inv = run(&spectrum(&cell, 0.001, 3));
     let main = inv
+        .drt
         .peaks
         .iter()
         .max_by(|a, b| a.area.total_cmp(&b.area))
         .unwrap();
     assert!(decades(main.tau_s, 1e-3) < 0.05, "tau {}", main.tau_s);
     assert!(
-        (inv.r_pol_ohm - 50.0).abs() < 0.5,
+        (inv.drt.total - 50.0).abs() < 0.5,
         "r_pol {}",
-        inv.r_pol_ohm
+        inv.drt.total
     );
     // Shape: relative L2 distance to the analytical gamma over the band.
     let (mut err, mut norm) = (0.0, 0.0);
-    for (t, g) in inv.tau_s.iter().zip(&inv.gamma_ohm) {
+    for (t, g) in inv.drt.tau_s.iter().zip(&inv.drt.gamma) {
         let want = zarc.gamma_ohm(*t).unwrap();
         err += (g - want).powi(2);
         norm += want * want;
@@ -105,7 +108,7 @@ fn finite_warburg_first_line() {
     let (tau1, r1) = w.lines(1)[0];
     let cell = Series(vec![Element::Resistor { r_ohm: 5.0 }, w]);
     let inv = run(&spectrum(&cell, 0.0, 0));
-    let slowest = inv.peaks.last().unwrap();
+    let slowest = inv.drt.peaks.last().unwrap();
     assert!(
         decades(slowest.tau_s, tau1) < 0.05,
         "tau {} vs {tau1}",
@@ -116,7 +119,7 @@ fn finite_warburg_first_line() {
         "r {} vs {r1}",
         slowest.area
     );
-    assert!((inv.r_pol_ohm - 20.0).abs() < 0.01 * 20.0);
+    assert!((inv.drt.total - 20.0).abs() < 0.01 * 20.0);
 }
 
 /// Two ZARCs one decade apart: both found, each within 0.1 decade.
@@ -125,10 +128,10 @@ fn two_zarcs_one_decade_apart() {
     let cell = cells::two_zarcs();
     for noise in [0.0, 0.001] {
         let inv = run(&spectrum(&cell, noise, 5));
-        assert_eq!(inv.peaks.len(), 2, "noise {noise}: {:?}", inv.peaks);
-        assert!(decades(inv.peaks[0].tau_s, 1e-4) < 0.1);
-        assert!(decades(inv.peaks[1].tau_s, 1e-3) < 0.1);
-        assert!((inv.r_pol_ohm - 70.0).abs() < 0.01 * 70.0);
+        assert_eq!(inv.drt.peaks.len(), 2, "noise {noise}: {:?}", inv.drt.peaks);
+        assert!(decades(inv.drt.peaks[0].tau_s, 1e-4) < 0.1);
+        assert!(decades(inv.drt.peaks[1].tau_s, 1e-3) < 0.1);
+        assert!((inv.drt.total - 70.0).abs() < 0.01 * 70.0);
     }
 }
 
@@ -139,21 +142,21 @@ fn zarc_plus_voigt_at_one_percent_noise() {
     let cell = cells::zarc_plus_voigt();
     for seed in [1, 2, 3] {
         let inv = run(&spectrum(&cell, 0.01, seed));
-        assert_eq!(inv.peaks.len(), 2, "seed {seed}: {:?}", inv.peaks);
+        assert_eq!(inv.drt.peaks.len(), 2, "seed {seed}: {:?}", inv.drt.peaks);
         assert!(
-            decades(inv.peaks[0].tau_s, 1e-4) < 0.1,
+            decades(inv.drt.peaks[0].tau_s, 1e-4) < 0.1,
             "seed {seed}: {:?}",
-            inv.peaks
+            inv.drt.peaks
         );
         assert!(
-            decades(inv.peaks[1].tau_s, 1e-3) < 0.1,
+            decades(inv.drt.peaks[1].tau_s, 1e-3) < 0.1,
             "seed {seed}: {:?}",
-            inv.peaks
+            inv.drt.peaks
         );
         assert!(
-            (inv.r_pol_ohm - 50.0).abs() < 0.03 * 50.0,
+            (inv.drt.total - 50.0).abs() < 0.03 * 50.0,
             "seed {seed}: {}",
-            inv.r_pol_ohm
+            inv.drt.total
         );
     }
 }
@@ -176,12 +179,16 @@ fn inductance_recovered_and_not_traded_against_r_inf() {
     let mut with_l = base.clone();
     with_l.push(Element::Inductor { l_h: 1e-6 });
     let inv = run(&spectrum(&Series(with_l), 0.001, 9));
-    let l = inv.inductance_h.expect("inductance modelled in auto mode");
+    let l = inv
+        .drt
+        .series
+        .inductance_h
+        .expect("inductance modelled in auto mode");
     assert!((l / 1e-6 - 1.0).abs() < 0.02, "L {l}");
     assert!(
-        (inv.r_inf_ohm - 10.0).abs() < 0.1,
+        (inv.drt.series.instantaneous.unwrap() - 10.0).abs() < 0.1,
         "r_inf {}",
-        inv.r_inf_ohm
+        inv.drt.series.instantaneous.unwrap()
     );
 
     let s = spectrum(&Series(base), 0.001, 9);
@@ -194,28 +201,28 @@ fn inductance_recovered_and_not_traded_against_r_inf() {
     )
     .unwrap();
     let auto = run(&s);
-    assert!(auto.inductance_h.is_none());
+    assert!(auto.drt.series.inductance_h.is_none());
     assert!(
-        (auto.r_inf_ohm - 10.0).abs() < 0.05,
+        (auto.drt.series.instantaneous.unwrap() - 10.0).abs() < 0.05,
         "r_inf {}",
-        auto.r_inf_ohm
+        auto.drt.series.instantaneous.unwrap()
     );
     assert!(
-        forced.inductance_h.unwrap() < 1e-8,
+        forced.drt.series.inductance_h.unwrap() < 1e-8,
         "spurious L {:?}",
-        forced.inductance_h
+        forced.drt.series.inductance_h
     );
     assert!(
-        (forced.r_inf_ohm - 10.0).abs() < 0.2,
+        (forced.drt.series.instantaneous.unwrap() - 10.0).abs() < 0.2,
         "r_inf {}",
-        forced.r_inf_ohm
+        forced.drt.series.instantaneous.unwrap()
     );
     assert!(
-        (forced.r_pol_ohm - auto.r_pol_ohm).abs() < 0.01 * auto.r_pol_ohm,
+        (forced.drt.total - auto.drt.total).abs() < 0.01 * auto.drt.total,
         "r_pol {} (L forced) vs {} (auto), L {:?}",
-        forced.r_pol_ohm,
-        auto.r_pol_ohm,
-        forced.inductance_h
+        forced.drt.total,
+        auto.drt.total,
+        forced.drt.series.inductance_h
     );
 }
 
@@ -227,14 +234,14 @@ fn extension_does_not_invent_resistance() {
     for seed in 20..25 {
         let inv = run(&spectrum(&cell, 0.01, seed));
         assert!(
-            (inv.r_pol_ohm - 50.0).abs() < 1.5,
+            (inv.drt.total - 50.0).abs() < 1.5,
             "seed {seed}: r_pol {}",
-            inv.r_pol_ohm
+            inv.drt.total
         );
         assert!(
-            (inv.r_inf_ohm - 10.0).abs() < 0.5,
+            (inv.drt.series.instantaneous.unwrap() - 10.0).abs() < 0.5,
             "seed {seed}: r_inf {}",
-            inv.r_inf_ohm
+            inv.drt.series.instantaneous.unwrap()
         );
     }
 }
@@ -258,17 +265,17 @@ fn invariances() {
     ]);
     let s = spectrum(&cell, 0.001, 4);
     let a = run(&s);
-    assert!(a.gamma_ohm.iter().all(|g| *g >= 0.0));
+    assert!(a.drt.gamma.iter().all(|g| *g >= 0.0));
     let k = 7.5;
     let b = run(&s.scaled(k));
     assert!(
-        (b.lambda / a.lambda - 1.0).abs() < 1e-9,
+        (b.drt.lambda.lambda / a.drt.lambda.lambda - 1.0).abs() < 1e-9,
         "lambda is scale-free"
     );
-    for (x, y) in a.gamma_ohm.iter().zip(&b.gamma_ohm) {
-        assert!((y - k * x).abs() <= 1e-6 * k * a.gamma_ohm.iter().copied().fold(0.0, f64::max));
+    for (x, y) in a.drt.gamma.iter().zip(&b.drt.gamma) {
+        assert!((y - k * x).abs() <= 1e-6 * k * a.drt.gamma.iter().copied().fold(0.0, f64::max));
     }
-    assert!((b.r_pol_ohm - k * a.r_pol_ohm).abs() < 1e-6 * k * a.r_pol_ohm);
+    assert!((b.drt.total - k * a.drt.total).abs() < 1e-6 * k * a.drt.total);
 
     let scale = 3.0;
     let shifted = Spectrum::new(
@@ -278,8 +285,8 @@ fn invariances() {
     )
     .unwrap();
     let c = run(&shifted);
-    assert_eq!(a.peaks.len(), c.peaks.len());
-    for (p, q) in a.peaks.iter().zip(&c.peaks) {
+    assert_eq!(a.drt.peaks.len(), c.drt.peaks.len());
+    for (p, q) in a.drt.peaks.iter().zip(&c.drt.peaks) {
         assert!(
             (q.tau_s * scale / p.tau_s - 1.0).abs() < 1e-6,
             "{} vs {}",
@@ -310,9 +317,9 @@ fn every_rule_and_basis_agree_on_r_pol() {
                 };
                 let inv = invert(&s, &p).unwrap();
                 assert!(
-                    (inv.r_pol_ohm - 50.0).abs() < 1.0,
+                    (inv.drt.total - 50.0).abs() < 1.0,
                     "{basis} {rule} k={order}: r_pol {}",
-                    inv.r_pol_ohm
+                    inv.drt.total
                 );
             }
         }
@@ -331,7 +338,8 @@ fn small_and_degenerate_spectra() {
         } else {
             assert!(
                 r.unwrap()
-                    .gamma_ohm
+                    .drt
+                    .gamma
                     .iter()
                     .all(|g| g.is_finite() && *g >= 0.0)
             );
@@ -345,7 +353,7 @@ fn small_and_degenerate_spectra() {
         &InvertParams::default(),
     )
     .unwrap();
-    assert!((inv.r_inf_ohm - 5.0).abs() < 1e-6);
-    assert!(inv.r_pol_ohm < 1e-6);
-    assert!(inv.peaks.is_empty());
+    assert!((inv.drt.series.instantaneous.unwrap() - 5.0).abs() < 1e-6);
+    assert!(inv.drt.total < 1e-6);
+    assert!(inv.drt.peaks.is_empty());
 }

@@ -3,6 +3,8 @@
 #[path = "cli/util.rs"]
 mod util;
 
+#[path = "cli/developers.rs"]
+mod developers;
 #[path = "cli/errors.rs"]
 mod errors;
 #[path = "cli/invert.rs"]

@@ -2,18 +2,23 @@
 //! (independent QP backend; needs `--features osqp`).
 #![cfg(feature = "osqp")]
 
-use nalgebra::DVector;
-use taumap::invert::{InvertParams, problem};
-use taumap::io::transient::{BinOptions, BinnedTransient};
-use taumap::osqp_backend::{OsqpOptions, solve_nonneg_qp};
+use taumap::pipeline::binning::{BinOptions, BinnedTransient};
+use taumap::pipeline::spectrum::problem;
+use taumap::pipeline::transient::transient_problem;
+use taumap::pipeline::{InvertParams, StepKind, TransientParams};
 use taumap::solve::Tikhonov;
+use taumap::solve::osqp::{OsqpOptions, solve_nonneg_qp};
 use taumap::synth::{Element, Series, add_white_noise, cells, log_times, reference_spectrum};
-use taumap::transient::{StepKind, TransientParams, transient_problem};
 
 fn test_cells() -> Vec<Series> {
     let mut inductive = cells::zarc_plus_voigt();
     inductive.0.push(Element::Inductor { l_h: 1e-6 });
     vec![cells::voigt(), cells::zarc(), inductive]
+}
+
+/// The squared Euclidean norm of `v`.
+fn norm_sq(v: &[f64]) -> f64 {
+    v.iter().map(|x| x * x).sum()
 }
 
 /// Solves `t` at two lambdas with both solvers and compares objective, fit
@@ -23,27 +28,26 @@ fn check_agreement(t: &Tikhonov, label: &str) {
         let native = t.solve(lambda, &[]);
         // 1/2 x'Px + q'x with P = 2(A'A + lambda M + prior), q = -2 A'b
         // equals the full objective minus the constant b'b.
-        let a = t.design();
-        let mut p = a.transpose() * a + t.penalty() * lambda;
-        if let Some(prior) = t.prior() {
-            p += prior;
-        }
-        let p = p * 2.0;
-        let q: DVector<f64> = -(a.transpose() * t.rhs()) * 2.0;
-        let n = p.nrows();
-        let p_row: Vec<f64> = (0..n * n).map(|i| p[(i / n, i % n)]).collect();
-        let o = solve_nonneg_qp(&p_row, q.as_slice(), &OsqpOptions::default()).unwrap();
+        let p_row: Vec<f64> = t
+            .normal_equations(lambda)
+            .to_row_major()
+            .iter()
+            .map(|v| v * 2.0)
+            .collect();
+        let q: Vec<f64> = t.normal_rhs().iter().map(|v| -2.0 * v).collect();
+        let btb = norm_sq(t.rhs());
+        let o = solve_nonneg_qp(&p_row, &q, &OsqpOptions::default()).unwrap();
         let obj_native = t.objective(lambda, &native.x);
         let obj_osqp = t.objective(lambda, &o.x);
         assert!(
-            (o.objective + t.rhs().norm_squared() - obj_osqp).abs()
-                < 1e-9 * (obj_osqp + t.rhs().norm_squared()),
+            (o.objective + btb - obj_osqp).abs() < 1e-9 * (obj_osqp + btb),
             "OSQP's own objective matches"
         );
         let rel_obj = (obj_osqp - obj_native).abs() / obj_native;
-        let fit_n = DVector::from_vec(t.predict(&native.x));
-        let fit_o = DVector::from_vec(t.predict(&o.x));
-        let rel_fit = (&fit_n - &fit_o).norm() / fit_n.norm();
+        let fit_n = t.predict(&native.x);
+        let fit_o = t.predict(&o.x);
+        let diff: Vec<f64> = fit_n.iter().zip(&fit_o).map(|(u, v)| u - v).collect();
+        let rel_fit = norm_sq(&diff).sqrt() / norm_sq(&fit_n).sqrt();
         let sum = |x: &[f64]| x.iter().sum::<f64>();
         let rel_sum = (sum(&native.x) - sum(&o.x)).abs() / sum(&native.x);
         println!(
@@ -53,7 +57,7 @@ fn check_agreement(t: &Tikhonov, label: &str) {
         // Relative to the objective, or to the data norm b'b where the fit is
         // so close that OSQP's absolute tolerance dominates.
         assert!(
-            rel_obj < 1e-6 || (obj_osqp - obj_native).abs() < 1e-9 * t.rhs().norm_squared(),
+            rel_obj < 1e-6 || (obj_osqp - obj_native).abs() < 1e-9 * btb,
             "{label} lambda {lambda}: objective {obj_native} vs {obj_osqp}"
         );
         assert!(

@@ -16,10 +16,10 @@ use super::transient::{self, transient_into};
 use anyhow::Result;
 use std::fmt::Write as _;
 use taumap::io::transient::read_transient;
-use taumap::pipeline::binning::BinOptions;
-use taumap::pipeline::{DrtOptions, InvertParams, StepKind, TransientParams};
 use taumap::io::write::write_atomic;
 use taumap::io::{Spectrum, read_spectrum};
+use taumap::pipeline::binning::BinOptions;
+use taumap::pipeline::{DrtOptions, InvertParams, StepKind, TransientParams};
 use taumap::report::num;
 use taumap::synth::{Element, Series, add_noise, add_white_noise, log_frequencies, log_times};
 
@@ -136,7 +136,7 @@ pub fn run(a: &DemoArgs) -> Result<()> {
         ..InvertParams::default()
     };
     let out = default_out_dir(&path);
-    let (summary, written) = invert_into(&path, &spectrum, &params, &out, true)?;
+    let (summary, written) = invert_into(&path, &spectrum, &params, &out, true, Vec::new())?;
     println!("demo spectrum: {}", path.display());
     report_run(&summary, &out, &written, false)?;
     println!("plots: {}", out.join("drt.png").display());

@@ -73,28 +73,39 @@ pub fn run(a: &InvertArgs) -> Result<()> {
         series_capacitance: a.series_capacitance,
     };
     let (spectrum, layout) = read_spectrum_with_layout(&a.input)?;
-    if layout.imag_mostly_positive {
-        eprintln!(
-            "warning: {}: the imaginary part is positive at most frequencies; taumap expects Z'' with its physical sign (negative when capacitive)",
-            a.input.display()
-        );
-    }
+    let reader_warnings: Vec<String> = layout
+        .imag_mostly_positive
+        .then(|| {
+            "the imaginary part is positive at most frequencies; taumap expects Z'' with its physical sign (negative when capacitive)".to_string()
+        })
+        .into_iter()
+        .collect();
     let out = a.out.clone().unwrap_or_else(|| default_out_dir(&a.input));
-    let (summary, written) = invert_into(&a.input, &spectrum, &params, &out, !a.solve.no_plots)?;
+    let (summary, written) = invert_into(
+        &a.input,
+        &spectrum,
+        &params,
+        &out,
+        !a.solve.no_plots,
+        reader_warnings,
+    )?;
     report_run(&summary, &out, &written, a.solve.json)
 }
 
 /// Inverts `spectrum` (read from `input`) and commits every output to `out`
-/// together; returns the summary and the files written.
+/// together; returns the summary and the files written. `reader_warnings`
+/// (doubts the reader had about the file) lead the result's warnings.
 pub fn invert_into(
     input: &Path,
     spectrum: &Spectrum,
     params: &InvertParams,
     out: &Path,
     plots: bool,
+    reader_warnings: Vec<String>,
 ) -> Result<(Summary, Vec<PathBuf>)> {
     // Whole-spectrum problems name the file they came from.
-    let inv = invert(spectrum, params).with_context(|| input.display().to_string())?;
+    let mut inv = invert(spectrum, params).with_context(|| input.display().to_string())?;
+    inv.drt.warnings.splice(0..0, reader_warnings);
     print_warnings(input, &inv.drt);
     let summary = Summary::new(&input.display().to_string(), spectrum, params, &inv);
     let written = write_outputs(out, spectrum, &inv, &summary, plots)?;
@@ -137,7 +148,12 @@ pub fn write_outputs(
     plots: bool,
 ) -> Result<Vec<PathBuf>> {
     let mut set = OutputSet::new(out);
-    add_distribution(&mut set, &inv.drt, "Distribution of relaxation times", plots)?;
+    add_distribution(
+        &mut set,
+        &inv.drt,
+        "Distribution of relaxation times",
+        plots,
+    )?;
     set.add("fit.csv", report::fit_csv(spectrum, &inv.fit))?;
     set.add("summary.json", summary.to_json())?;
     if plots {

@@ -11,7 +11,8 @@ use taumap::plot::{self, ImageFormat};
 use taumap::report;
 
 /// Both image formats, with their file extensions.
-pub const FORMATS: [(&str, ImageFormat); 2] = [("svg", ImageFormat::Svg), ("png", ImageFormat::Png)];
+pub const FORMATS: [(&str, ImageFormat); 2] =
+    [("svg", ImageFormat::Svg), ("png", ImageFormat::Png)];
 
 /// Adds `drt.csv`, `lambda.csv` (when a rule chose lambda) and, with
 /// `plots`, the DRT and lambda figures of `drt` to `set`.

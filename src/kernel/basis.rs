@@ -18,8 +18,8 @@
 
 use super::quadrature::gauss_legendre;
 use crate::grid::TauGrid;
-use crate::{Error, Result};
 use crate::linalg::Matrix;
+use crate::{Error, Result};
 use nalgebra::DMatrix;
 use std::f64::consts::PI;
 

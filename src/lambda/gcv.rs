@@ -11,8 +11,8 @@ use super::{LambdaPath, LambdaRule, RuleCurve, argmin, refine_parabola};
 ///
 /// Source: G. H. Golub, M. Heath, G. Wahba (1979), "Generalized cross-validation
 /// as a method for choosing a good ridge parameter", Technometrics 21(2),
-/// 215-223, doi:10.1080/00401706.1979.10489751, eq. (1.4) (up to the constant
-/// factor 1/m).
+/// 215-223, doi:10.1080/00401706.1979.10489751, eq. (1.4): the same value,
+/// `(1/m)||r||^2 / [(1/m) tr(I - H)]^2`, written without the factors 1/m.
 ///
 /// Deviation: with active non-negativity bounds `H_λ` is built on the free set
 /// only (bound variables are held at zero and do not respond to the data).

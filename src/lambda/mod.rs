@@ -187,7 +187,6 @@ impl LambdaPath {
     pub fn lambdas(&self) -> Vec<f64> {
         self.points.iter().map(|p| p.solution.lambda).collect()
     }
-
 }
 
 /// A rule's curve over the path and its choice.

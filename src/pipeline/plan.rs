@@ -87,13 +87,7 @@ impl Sampler {
     fn evaluate(&self, coeffs: &[f64]) -> Vec<f64> {
         self.rows
             .iter()
-            .map(|(lo, phi)| {
-                coeffs[*lo..]
-                    .iter()
-                    .zip(phi)
-                    .map(|(c, p)| c * p)
-                    .sum()
-            })
+            .map(|(lo, phi)| coeffs[*lo..].iter().zip(phi).map(|(c, p)| c * p).sum())
             .collect()
     }
 }
@@ -148,9 +142,8 @@ impl Plan {
         penalty
             .view_mut((0, 0), (n_gamma, n_gamma))
             .copy_from(&gram);
-        let extension = (opts.extension_prior > 0.0).then(|| {
-            Arc::new(extension_gram(&basis, band_ln_tau).resize(ncols, ncols, 0.0))
-        });
+        let extension = (opts.extension_prior > 0.0)
+            .then(|| Arc::new(extension_gram(&basis, band_ln_tau).resize(ncols, ncols, 0.0)));
         let sampler = Sampler::new(&basis, opts.oversample);
         let mut plan = Self {
             opts: opts.clone(),
@@ -214,7 +207,12 @@ impl Plan {
     fn weighted(&self, scale: &[f64], keep: &[usize]) -> DMatrix<f64> {
         let mut a = DMatrix::zeros(self.nrows(), keep.len());
         for (k, &j) in keep.iter().enumerate() {
-            for ((o, kij), s) in a.column_mut(k).iter_mut().zip(self.kernel.column(j)).zip(scale) {
+            for ((o, kij), s) in a
+                .column_mut(k)
+                .iter_mut()
+                .zip(self.kernel.column(j))
+                .zip(scale)
+            {
                 *o = kij * s;
             }
         }

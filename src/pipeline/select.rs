@@ -55,10 +55,9 @@ pub(crate) fn select(
         LambdaChoice::Rule(rule) => {
             let lambdas = opts.lambda_grid.values();
             let path = LambdaPath::trace(problem, &lambdas, warm);
-            path_status = path
-                .points
-                .iter()
-                .fold(SolveStatus::Converged, |s, p| worst(s, p.solution.info.status));
+            path_status = path.points.iter().fold(SolveStatus::Converged, |s, p| {
+                worst(s, p.solution.info.status)
+            });
             // The rules that read the path cost nothing more; the
             // cross-validation rule needs two more sweeps, so its curve is
             // computed only when it decides or when every curve is asked for.
@@ -74,10 +73,7 @@ pub(crate) fn select(
                     }
                 })
                 .collect();
-            let rule_choice = rules
-                .iter()
-                .find(|c| c.rule == rule)
-                .and_then(|c| c.chosen);
+            let rule_choice = rules.iter().find(|c| c.rule == rule).and_then(|c| c.chosen);
             let (lo, hi) = (lambdas[0], lambdas[lambdas.len() - 1]);
             // The refinement never leaves the grid; a choice within a
             // millionth of a decade of an end is on it.

@@ -201,11 +201,25 @@ impl SpectrumPlan {
         let mut series = vec![(0..2 * m).map(|i| if i < m { 1.0 } else { 0.0 }).collect()];
         let with_l = !matches!(params.inductance, InductanceMode::Off);
         let col_l = with_l.then(|| {
-            series.push((0..2 * m).map(|i| if i < m { 0.0 } else { omega[i - m] / omega_max }).collect());
+            series.push(
+                (0..2 * m)
+                    .map(|i| if i < m { 0.0 } else { omega[i - m] / omega_max })
+                    .collect(),
+            );
             n_gamma + series.len() - 1
         });
         let col_c = params.series_capacitance.then(|| {
-            series.push((0..2 * m).map(|i| if i < m { 0.0 } else { -omega_min / omega[i - m] }).collect());
+            series.push(
+                (0..2 * m)
+                    .map(|i| {
+                        if i < m {
+                            0.0
+                        } else {
+                            -omega_min / omega[i - m]
+                        }
+                    })
+                    .collect(),
+            );
             n_gamma + series.len() - 1
         });
         let mut stacked = kernel.re.clone().resize_vertically(2 * m, 0.0);

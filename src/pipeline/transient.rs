@@ -505,7 +505,11 @@ impl TransientPlan {
         let constant = x[n] * s;
         let series_capacitance_f = self.col_c.map(|c| {
             let u = x[c] * s;
-            if u > 0.0 { self.t_max / u } else { f64::INFINITY }
+            if u > 0.0 {
+                self.t_max / u
+            } else {
+                f64::INFINITY
+            }
         });
         let step = self.params.step;
         let amp = step.amplitude();
@@ -521,8 +525,7 @@ impl TransientPlan {
             .collect();
         let span = amp.abs() * s;
         let residual_rel: Vec<f64> = (0..m).map(|i| (fitted[i] - values[i]) / span).collect();
-        let residual_rms_rel =
-            (residual_rel.iter().map(|r| r * r).sum::<f64>() / m as f64).sqrt();
+        let residual_rms_rel = (residual_rel.iter().map(|r| r * r).sum::<f64>() / m as f64).sqrt();
         let (instantaneous, final_value) = match step {
             StepKind::CurrentStep { .. } | StepKind::VoltageStep { .. } => (Some(constant), None),
             StepKind::Relaxation { current_a } => {

@@ -46,8 +46,12 @@ fn demo_data_inverts_with_every_output() {
     assert!(fit.starts_with(
         "frequency_hz,z_re_ohm,z_im_ohm,fit_re_ohm,fit_im_ohm,residual_re_rel,residual_im_rel\n"
     ));
+    // The curves of one lambda sweep; re-im CV needs two more sweeps and is
+    // computed when asked for (--all-rules, below) or when it decides.
     let lam = std::fs::read_to_string(out.join("lambda.csv")).unwrap();
-    assert!(lam.starts_with("lambda,residual_sq,penalty_sq,dof,gcv_score,lcurve_curvature,discrepancy_ratio,recv_score\n"));
+    assert!(lam.starts_with(
+        "lambda,residual_sq,penalty_sq,dof,gcv_score,lcurve_curvature,discrepancy_ratio\n"
+    ));
 
     let json: serde_json::Value =
         serde_json::from_str(&std::fs::read_to_string(out.join("summary.json")).unwrap()).unwrap();
@@ -57,11 +61,21 @@ fn demo_data_inverts_with_every_output() {
         "inductance_h",
         "lambda",
         "lambda_rule",
+        "lambda_floored",
+        "lambda_grid_edge",
+        "lambda_candidates",
         "residual_rms_rel",
         "peaks",
+        "solver_status",
+        "solver",
+        "warnings",
     ] {
         assert!(json.get(key).is_some(), "summary.json lacks {key}");
     }
+    assert_eq!(json["solver_status"], "converged");
+    assert_eq!(json["solver"]["status"], "converged");
+    assert!(json["lambda_grid_edge"].is_null());
+    assert_eq!(json["warnings"].as_array().unwrap().len(), 0);
     // The demo cell (src/cli/demo.rs): R_inf 0.150 ohm, L 80 nH, R_pol 0.250 ohm.
     let r_inf = json["r_inf_ohm"].as_f64().unwrap();
     let r_pol = json["r_pol_ohm"].as_f64().unwrap();
@@ -157,5 +171,67 @@ fn demo_command_writes_data_and_plots() {
         dir.path()
             .join("demo-data/button-cell-700c-taumap/summary.json")
             .exists()
+    );
+}
+
+/// `--all-rules` adds the re-im cross-validation curve to lambda.csv and its
+/// choice to the candidates; the chosen lambda does not change.
+#[test]
+fn all_rules_adds_the_cross_validation_curve() {
+    let dir = tempdir();
+    let input = repo_root().join("demo-data/button-cell-700c.csv");
+    let mut lambdas = Vec::new();
+    for (sub, extra) in [("one", None), ("all", Some("--all-rules"))] {
+        let out = dir.path().join(sub);
+        let mut args = vec![
+            "invert",
+            input.to_str().unwrap(),
+            "--out",
+            out.to_str().unwrap(),
+            "--no-plots",
+        ];
+        args.extend(extra);
+        let run = taumap(dir.path(), &args);
+        assert_eq!(run.code, 0, "{}", run.explain());
+        let lam = std::fs::read_to_string(out.join("lambda.csv")).unwrap();
+        let header = lam.lines().next().unwrap();
+        assert_eq!(header.ends_with(",recv_score"), extra.is_some(), "{header}");
+        let json: serde_json::Value =
+            serde_json::from_str(&std::fs::read_to_string(out.join("summary.json")).unwrap())
+                .unwrap();
+        let n_candidates = json["lambda_candidates"].as_array().unwrap().len();
+        assert_eq!(n_candidates, if extra.is_some() { 4 } else { 3 });
+        lambdas.push(json["lambda"].as_f64().unwrap());
+    }
+    assert_eq!(lambdas[0].to_bits(), lambdas[1].to_bits());
+}
+
+/// A 5-point spectrum no passive DRT model describes: the rule runs to the
+/// top of its grid, and the summary and stderr say so.
+#[test]
+fn lambda_on_the_grid_edge_is_flagged() {
+    let dir = tempdir();
+    std::fs::write(
+        dir.path().join("odd.csv"),
+        "frequency_hz,z_re_ohm,z_im_ohm\n1,10,-5\n10,3,8\n100,12,-2\n1000,1,6\n10000,9,-4\n",
+    )
+    .unwrap();
+    let run = taumap(dir.path(), &["invert", "odd.csv", "--json", "--no-plots"]);
+    assert_eq!(run.code, 0, "{}", run.explain());
+    let json: serde_json::Value = serde_json::from_str(&run.stdout).unwrap();
+    assert_eq!(json["lambda_grid_edge"], "upper", "{}", run.explain());
+    let warnings = json["warnings"].as_array().unwrap();
+    assert!(
+        warnings
+            .iter()
+            .any(|w| w.as_str().unwrap().contains("largest value of its grid")),
+        "{}",
+        run.explain()
+    );
+    assert!(
+        run.stderr
+            .contains("warning: odd.csv: the discrepancy rule chose lambda"),
+        "{}",
+        run.explain()
     );
 }

@@ -311,7 +311,18 @@ fn wrong_sign_warns_and_fit_start_is_recorded() {
         "{}",
         run.explain()
     );
-    assert_eq!(json(&run)["warnings"].as_array().unwrap().len(), 1);
+    // The sign, then the lambda rule pushed to the top of its grid (no
+    // non-negative model fits a voltage moving against the step).
+    let warnings = json(&run)["warnings"].as_array().unwrap().clone();
+    assert_eq!(warnings.len(), 2, "{}", run.explain());
+    assert!(warnings[0].as_str().unwrap().contains("check the sign"));
+    assert_eq!(json(&run)["lambda_grid_edge"], "upper");
+    assert_eq!(
+        run.stderr.matches("warning: dis.csv:").count(),
+        2,
+        "{}",
+        run.explain()
+    );
     let run = taumap(
         dir.path(),
         &[
