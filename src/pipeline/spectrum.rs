@@ -418,3 +418,157 @@ pub fn invert(spectrum: &Spectrum, params: &InvertParams) -> Result<SpectrumInve
         None,
     )
 }
+
+#[cfg(all(test, feature = "synth"))]
+mod tests {
+    use super::*;
+    use crate::lambda::LambdaChoice;
+    use crate::synth::{Element, Series, cells, reference_spectrum};
+
+    fn series_of_spectra() -> Vec<Spectrum> {
+        // A cell whose charge-transfer arc grows from 20 to 40 ohm, one
+        // spectrum per step, all on the same frequencies.
+        (0..5)
+            .map(|k| {
+                let cell = Series(vec![
+                    Element::Resistor { r_ohm: 5.0 },
+                    Element::Zarc {
+                        r_ohm: 20.0 + 5.0 * k as f64,
+                        tau_s: 1e-3,
+                        phi: 0.9,
+                    },
+                    Element::Voigt {
+                        r_ohm: 8.0,
+                        tau_s: 0.5,
+                    },
+                ]);
+                reference_spectrum(&cell, 0.002, k).unwrap()
+            })
+            .collect()
+    }
+
+    /// One plan serves every spectrum of a series and gives, bit for bit,
+    /// what `invert` gives for each spectrum alone; with either weighting.
+    #[test]
+    fn one_plan_equals_one_inversion_per_spectrum() {
+        let spectra = series_of_spectra();
+        for weighting in [Weighting::Modulus, Weighting::Unit] {
+            let params = InvertParams {
+                weighting,
+                ..InvertParams::default()
+            };
+            let plan = SpectrumPlan::new(&spectra[0].frequency_hz, &params).unwrap();
+            for s in &spectra {
+                let alone = invert(s, &params).unwrap();
+                let planned = plan.invert(&s.z_re_ohm, &s.z_im_ohm, None).unwrap();
+                assert_eq!(alone.drt.gamma, planned.drt.gamma);
+                assert_eq!(alone.drt.total.to_bits(), planned.drt.total.to_bits());
+                assert_eq!(alone.fit.fit_re_ohm, planned.fit.fit_re_ohm);
+            }
+        }
+    }
+
+    /// A warm start from the previous spectrum of a series reaches the same
+    /// solution (the solver is exact; the start only changes its path).
+    #[test]
+    fn warm_start_from_a_neighbour_gives_the_same_distribution() {
+        let spectra = series_of_spectra();
+        let params = InvertParams {
+            drt: DrtOptions {
+                lambda: LambdaChoice::Fixed(1e-3),
+                ..DrtOptions::default()
+            },
+            ..InvertParams::default()
+        };
+        let plan = SpectrumPlan::new(&spectra[0].frequency_hz, &params).unwrap();
+        let mut warm: Option<WarmStart> = None;
+        for s in &spectra {
+            let cold = plan.invert(&s.z_re_ohm, &s.z_im_ohm, None).unwrap();
+            let hot = plan
+                .invert(&s.z_re_ohm, &s.z_im_ohm, warm.as_ref())
+                .unwrap();
+            let peak = cold.drt.gamma.iter().copied().fold(0.0, f64::max);
+            for (a, b) in cold.drt.gamma.iter().zip(&hot.drt.gamma) {
+                assert!((a - b).abs() <= 1e-9 * peak, "{a} vs {b}");
+            }
+            assert!(!hot.drt.warm_start.free.is_empty());
+            warm = Some(hot.drt.warm_start.clone());
+        }
+    }
+
+    /// The plan is shared by threads; every thread gets the bits a single
+    /// thread gets.
+    #[test]
+    fn threads_sharing_a_plan_get_identical_results() {
+        let spectra = series_of_spectra();
+        let params = InvertParams::default();
+        let plan = SpectrumPlan::new(&spectra[0].frequency_hz, &params).unwrap();
+        let serial: Vec<Vec<f64>> = spectra
+            .iter()
+            .map(|s| {
+                plan.invert(&s.z_re_ohm, &s.z_im_ohm, None)
+                    .unwrap()
+                    .drt
+                    .gamma
+            })
+            .collect();
+        let parallel: Vec<Vec<f64>> = std::thread::scope(|scope| {
+            let handles: Vec<_> = spectra
+                .iter()
+                .map(|s| {
+                    let plan = &plan;
+                    scope.spawn(move || {
+                        plan.invert(&s.z_re_ohm, &s.z_im_ohm, None)
+                            .unwrap()
+                            .drt
+                            .gamma
+                    })
+                })
+                .collect();
+            handles.into_iter().map(|h| h.join().unwrap()).collect()
+        });
+        assert_eq!(serial, parallel);
+    }
+
+    /// Automatic inductance decides per spectrum on a shared plan: a
+    /// spectrum with lead inductance gets it, one without does not.
+    #[test]
+    fn automatic_inductance_is_decided_per_response() {
+        let mut inductive = cells::zarc_plus_voigt();
+        inductive.0.push(Element::Inductor { l_h: 1e-6 });
+        let with_l = reference_spectrum(&inductive, 0.0, 1).unwrap();
+        let without = reference_spectrum(&cells::zarc_plus_voigt(), 0.0, 1).unwrap();
+        let plan = SpectrumPlan::new(&with_l.frequency_hz, &InvertParams::default()).unwrap();
+        let a = plan
+            .invert(&with_l.z_re_ohm, &with_l.z_im_ohm, None)
+            .unwrap();
+        let b = plan
+            .invert(&without.z_re_ohm, &without.z_im_ohm, None)
+            .unwrap();
+        let l = a.drt.series.inductance_h.expect("inductance modelled");
+        assert!((l / 1e-6 - 1.0).abs() < 0.02, "{l}");
+        assert!(b.drt.series.inductance_h.is_none());
+        // Same answers as the one-off inversions.
+        let alone = invert(&without, &InvertParams::default()).unwrap();
+        assert_eq!(alone.drt.gamma, b.drt.gamma);
+    }
+
+    #[test]
+    fn responses_that_do_not_fit_the_plan_are_refused() {
+        let s = reference_spectrum(&cells::voigt(), 0.0, 1).unwrap();
+        let plan = SpectrumPlan::new(&s.frequency_hz, &InvertParams::default()).unwrap();
+        let short = &s.z_re_ohm[1..];
+        let e = plan
+            .invert(short, &s.z_im_ohm, None)
+            .unwrap_err()
+            .to_string();
+        assert!(e.contains("frequencies but"), "{e}");
+        let mut bad = s.z_re_ohm.clone();
+        bad[3] = f64::NAN;
+        assert!(plan.invert(&bad, &s.z_im_ohm, None).is_err());
+        let e = SpectrumPlan::new(&[1.0, 10.0, 5.0], &InvertParams::default())
+            .unwrap_err()
+            .to_string();
+        assert!(e.contains("frequency_hz[2]"), "{e}");
+    }
+}

@@ -585,3 +585,45 @@ pub fn invert_transient(
 ) -> Result<TransientInversion> {
     TransientPlan::new(record, params)?.invert(record, None)
 }
+
+#[cfg(all(test, feature = "synth"))]
+mod tests {
+    use super::*;
+    use crate::pipeline::binning::BinOptions;
+    use crate::synth::{Element, Series, add_white_noise, log_times};
+
+    fn record(r_ohm: f64, seed: u64, t: &[f64]) -> BinnedTransient {
+        let cell = Series(vec![
+            Element::Resistor { r_ohm: 0.01 },
+            Element::Voigt { r_ohm, tau_s: 1e-3 },
+        ]);
+        let mut v: Vec<f64> = t.iter().map(|&t| 0.5 * cell.current_step_ohm(t)).collect();
+        add_white_noise(&mut v, 2e-5, seed);
+        BinnedTransient::from_samples(t, &v, &BinOptions::default()).unwrap()
+    }
+
+    /// Pulses of a cycling test logged on one time base share one plan and
+    /// get, bit for bit, what a one-off inversion gives; a record on another
+    /// time base is refused, not silently misfitted.
+    #[test]
+    fn one_plan_serves_every_pulse_on_the_same_time_base() {
+        let t = log_times(1e-5, 1.0, 50.0);
+        let params = TransientParams::new(StepKind::CurrentStep { current_a: 0.5 });
+        let first = record(0.02, 1, &t);
+        let plan = TransientPlan::new(&first, &params).unwrap();
+        for (k, r_ohm) in [0.02, 0.025, 0.03].into_iter().enumerate() {
+            let rec = record(r_ohm, k as u64 + 1, &t);
+            let alone = invert_transient(&rec, &params).unwrap();
+            let planned = plan.invert(&rec, None).unwrap();
+            assert_eq!(alone.drt.gamma, planned.drt.gamma);
+            assert!(
+                (planned.drt.total / r_ohm - 1.0).abs() < 0.02,
+                "{}",
+                planned.drt.total
+            );
+        }
+        let other = record(0.02, 9, &log_times(2e-5, 1.0, 50.0));
+        let e = plan.invert(&other, None).unwrap_err().to_string();
+        assert!(e.contains("differ from the plan"), "{e}");
+    }
+}
