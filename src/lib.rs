@@ -10,7 +10,7 @@
 //! problem with an exact active-set solver, chooses the regularisation
 //! parameter automatically, and reports peaks with their resistances. Step
 //! transients (current steps, relaxations, voltage steps) go through the same
-//! solver on time-domain kernels ([`transient`]).
+//! solver on time-domain kernels ([`pipeline::transient`]).
 //!
 //! # Module map
 //! - [`io`]: CSV readers (line-aware errors, streaming for long transients)

@@ -20,7 +20,7 @@
 //!   settings every inversion shares.
 //! - [`plan`]: [`Plan`], the prepared problem on one measurement axis,
 //!   the extension prior and the sampled distribution.
-//! - [`select`](mod@select): the choice of lambda and the final solve.
+//! - `select`: the choice of lambda and the final solve (crate-internal).
 //! - [`result`]: [`Distribution`], [`LambdaSelection`], [`SolveInfo`], the
 //!   one result type of every inversion.
 //! - [`spectrum`]: the spectrum front end ([`SpectrumPlan`], [`invert`]).

@@ -1,6 +1,6 @@
 //! Solvers on plain matrices: they know nothing about impedance.
 //!
-//! - [`nnls`]: exact active-set non-negative QP solver (the default backend).
+//! - [`nnls`](mod@nnls): exact active-set non-negative QP solver (the default backend).
 //! - [`tikhonov`]: the stacked Tikhonov problem, its solutions along a path of
 //!   regularisation parameters, and the influence-matrix trace.
 //! - `osqp` (feature `osqp`): an independent QP backend (OSQP, C code built
