@@ -103,6 +103,32 @@ pub(crate) fn gram_dense(a: &DMatrix<f64>) -> DMatrix<f64> {
     &at * a
 }
 
+/// `sum_i a_i b_i` over the shorter length, with four partial sums: the
+/// additions of one partial sum do not wait for the others, so the loop runs
+/// several times faster than a single running sum (and vectorises), at the
+/// cost of a different but equally accurate rounding (pairwise-style
+/// summation; N. J. Higham, *Accuracy and Stability of Numerical
+/// Algorithms*, 2nd ed. (2002), section 4.2).
+#[inline]
+pub(crate) fn dot(a: &[f64], b: &[f64]) -> f64 {
+    let n = a.len().min(b.len());
+    let (a, b) = (&a[..n], &b[..n]);
+    let mut acc = [0.0f64; 4];
+    let (ca, cb) = (a.chunks_exact(4), b.chunks_exact(4));
+    let (ra, rb) = (ca.remainder(), cb.remainder());
+    for (x, y) in ca.zip(cb) {
+        acc[0] += x[0] * y[0];
+        acc[1] += x[1] * y[1];
+        acc[2] += x[2] * y[2];
+        acc[3] += x[3] * y[3];
+    }
+    let mut s = (acc[0] + acc[1]) + (acc[2] + acc[3]);
+    for (x, y) in ra.iter().zip(rb) {
+        s += x * y;
+    }
+    s
+}
+
 impl std::ops::Index<(usize, usize)> for Matrix {
     type Output = f64;
 
@@ -125,5 +151,15 @@ mod tests {
         let g = m.gram();
         assert_eq!(g.get(0, 1), 1.0 * 2.0 + 4.0 * 5.0);
         assert!(Matrix::from_row_major(2, 2, &[1.0]).is_err());
+        // Four partial sums and a remainder: lengths 0 to 9 against the
+        // exact integer sums.
+        for n in 0..10 {
+            let a: Vec<f64> = (0..n).map(|i| i as f64 + 1.0).collect();
+            let b: Vec<f64> = (0..n).map(|i| 2.0 * i as f64 - 3.0).collect();
+            let want: f64 = (0..n)
+                .map(|i| (i as f64 + 1.0) * (2.0 * i as f64 - 3.0))
+                .sum();
+            assert_eq!(dot(&a, &b), want, "n = {n}");
+        }
     }
 }

@@ -789,9 +789,10 @@ fn step_to_bound(x: &mut [f64], passive: &mut [bool], order: &[usize], s: &[f64]
 /// Source: the row-append update of a Cholesky factor, e.g. G. H. Golub,
 /// C. F. Van Loan, *Matrix Computations*, 4th ed. (2013), section 6.5.
 struct IncrementalCholesky {
-    /// Row-major lower triangle with row stride `n`: row `a` holds L[a, 0..=a].
+    /// Packed row-major lower triangle: row `a` holds `L[a, 0..=a]` from
+    /// offset `a (a + 1) / 2` ([`packed`]). It grows as variables enter, so
+    /// a solve never clears more than the rows it uses.
     l: Vec<f64>,
-    n: usize,
     order: Vec<usize>,
     /// Relative pivot threshold, [`pivot_rel`].
     piv: f64,
@@ -801,15 +802,17 @@ struct IncrementalCholesky {
     max_shift: f64,
 }
 
-fn dot(a: &[f64], b: &[f64]) -> f64 {
-    a.iter().zip(b).map(|(x, y)| x * y).sum()
+use crate::linalg::dot;
+
+/// Offset of row `a` in a packed lower triangle.
+fn packed(a: usize) -> usize {
+    a * (a + 1) / 2
 }
 
 impl IncrementalCholesky {
     fn new(n: usize, piv: f64) -> Self {
         Self {
-            l: vec![0.0; n * n],
-            n,
+            l: Vec::with_capacity(packed(n.min(64))),
             order: Vec::with_capacity(n),
             piv,
             shift: vec![0.0; n],
@@ -831,20 +834,24 @@ impl IncrementalCholesky {
     /// pivot `Q_tt + shift_t - r'r`, without committing `t`.
     fn trial(&mut self, q: &DMatrix<f64>, t: usize) -> f64 {
         let p = self.order.len();
-        let n = self.n;
         let col = q.column(t);
-        for a in 0..p {
-            let v = col[self.order[a]] - dot(&self.l[a * n..a * n + a], &self.l[p * n..p * n + a]);
-            self.l[p * n + a] = v / self.l[a * n + a];
+        let (rp, end) = (packed(p), packed(p + 1));
+        if self.l.len() < end {
+            self.l.resize(end, 0.0);
         }
-        let row = &self.l[p * n..p * n + p];
+        for a in 0..p {
+            let ra = packed(a);
+            let v = col[self.order[a]] - dot(&self.l[ra..ra + a], &self.l[rp..rp + a]);
+            self.l[rp + a] = v / self.l[ra + a];
+        }
+        let row = &self.l[rp..rp + p];
         q[(t, t)] + self.shift[t] - dot(row, row)
     }
 
     /// Commits the row left by [`Self::trial`] with squared pivot `d2 > 0`.
     fn commit(&mut self, t: usize, d2: f64) {
         let p = self.order.len();
-        self.l[p * self.n + p] = d2.sqrt();
+        self.l[packed(p) + p] = d2.sqrt();
         self.order.push(t);
     }
 
@@ -863,19 +870,19 @@ impl IncrementalCholesky {
     /// part of the direction `(-Q_PP^{-1} q_Pt, 1)`, in factor order.
     fn null_direction(&self) -> Vec<f64> {
         let p = self.order.len();
-        let n = self.n;
-        let mut y: Vec<f64> = self.l[p * n..p * n + p].iter().map(|v| -v).collect();
+        let rp = packed(p);
+        let mut y: Vec<f64> = self.l[rp..rp + p].iter().map(|v| -v).collect();
         self.back_substitute(&mut y);
         y
     }
 
     /// Solves `L' y_new = y` in place.
     fn back_substitute(&self, y: &mut [f64]) {
-        let n = self.n;
         for a in (0..y.len()).rev() {
-            y[a] /= self.l[a * n + a];
+            let ra = packed(a);
+            y[a] /= self.l[ra + a];
             let ya = y[a];
-            let row = &self.l[a * n..a * n + a];
+            let row = &self.l[ra..ra + a];
             for (yb, lb) in y[..a].iter_mut().zip(row) {
                 *yb -= lb * ya;
             }
@@ -886,11 +893,11 @@ impl IncrementalCholesky {
     /// in factor order.
     fn solve(&self, c: &DVector<f64>) -> Vec<f64> {
         let p = self.order.len();
-        let n = self.n;
         let mut y = vec![0.0; p];
         for a in 0..p {
-            let v = c[self.order[a]] - dot(&self.l[a * n..a * n + a], &y[..a]);
-            y[a] = v / self.l[a * n + a];
+            let ra = packed(a);
+            let v = c[self.order[a]] - dot(&self.l[ra..ra + a], &y[..a]);
+            y[a] = v / self.l[ra + a];
         }
         self.back_substitute(&mut y);
         y

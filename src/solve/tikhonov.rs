@@ -306,7 +306,7 @@ impl Tikhonov {
 /// solving `Q Y = G` and taking the trace (G. H. Golub, C. F. Van Loan,
 /// *Matrix Computations*, 4th ed. (2013), sections 3.1 and 4.2).
 fn trace_of_inverse_product(q: &[f64], g: &[f64], p: usize) -> Option<f64> {
-    let dot = |a: &[f64], b: &[f64]| a.iter().zip(b).map(|(x, y)| x * y).sum::<f64>();
+    use crate::linalg::dot;
     // Cholesky, row-major lower triangle in place.
     let mut l = q.to_vec();
     for i in 0..p {
