@@ -210,11 +210,27 @@ impl Tikhonov {
     pub fn solve(&self, lambda: f64, warm: &[usize]) -> TikhonovSolution {
         let q = self.normal_matrix(lambda);
         let sol = nnls_dense(&q, self.atb.as_slice(), warm, &self.nnls);
-        let xv = DVector::from_column_slice(&sol.x);
-        let r = self.a.as_ref() * &xv - &self.b;
-        let residual_sq = r.norm_squared();
-        // x'Mx >= 0 for a semidefinite M; rounding can leave -1e-30.
-        let penalty_sq = xv.dot(&(self.penalty.as_ref() * &xv)).max(0.0);
+        // Only the free columns contribute (x is zero elsewhere).
+        let m = self.nrows();
+        let mut r: Vec<f64> = self.b.iter().map(|b| -b).collect();
+        for &j in &sol.passive {
+            let xj = sol.x[j];
+            for (ri, aij) in r.iter_mut().zip(&self.a.as_slice()[j * m..(j + 1) * m]) {
+                *ri += aij * xj;
+            }
+        }
+        let residual_sq = crate::linalg::dot(&r, &r);
+        let n = self.ncols();
+        let penalty_sq = sol
+            .passive
+            .iter()
+            .map(|&j| {
+                let col = &self.penalty.as_slice()[j * n..(j + 1) * n];
+                sol.x[j] * sol.passive.iter().map(|&i| col[i] * sol.x[i]).sum::<f64>()
+            })
+            .sum::<f64>()
+            // x'Mx >= 0 for a semidefinite M; rounding can leave -1e-30.
+            .max(0.0);
         TikhonovSolution {
             lambda,
             x: sol.x,
