@@ -97,6 +97,20 @@ fn plan_benches(c: &mut Criterion) {
                 .expect("inverts")
         })
     });
+    // Unit weighting: the design matrix and its cross product are the
+    // plan's, the same for every response.
+    let unit_fixed = InvertParams {
+        weighting: taumap::pipeline::Weighting::Unit,
+        ..fixed.clone()
+    };
+    let plan_unit = SpectrumPlan::new(&s.frequency_hz, &unit_fixed).expect("plan builds");
+    group.bench_function("invert_fixed_lambda_unit_weighting", |b| {
+        b.iter(|| {
+            plan_unit
+                .invert(black_box(&s.z_re_ohm), black_box(&s.z_im_ohm), None)
+                .expect("inverts")
+        })
+    });
     group.bench_function("build", |b| {
         b.iter(|| {
             SpectrumPlan::new(black_box(&s.frequency_hz), black_box(&auto)).expect("plan builds")

@@ -38,6 +38,10 @@ fn benches(c: &mut Criterion) {
     c.bench_function("transient/invert_binned_auto", |b| {
         b.iter(|| invert_transient(black_box(&rec), &step).expect("inverts"))
     });
+    let plan = taumap::pipeline::TransientPlan::new(&rec, &step).expect("plan builds");
+    c.bench_function("transient/plan_invert_auto", |b| {
+        b.iter(|| plan.invert(black_box(&rec), None).expect("inverts"))
+    });
     c.bench_function("transient/bin_1e5_samples", |b| {
         b.iter(|| {
             BinnedTransient::from_samples(black_box(&t), black_box(&v), &BinOptions::default())
