@@ -70,9 +70,12 @@ impl Matrix {
         (0..m * n).map(|k| self.0[(k / n, k % n)]).collect()
     }
 
-    /// The product `self * x`; `x` must have `ncols` entries.
+    /// The product `self * x`.
+    ///
+    /// # Panics
+    /// When `x` does not have `ncols` entries.
     pub fn mul_vec(&self, x: &[f64]) -> Vec<f64> {
-        debug_assert_eq!(x.len(), self.ncols());
+        assert_eq!(x.len(), self.ncols(), "mul_vec needs one value per column");
         let mut out = vec![0.0; self.nrows()];
         for (j, &xj) in x.iter().enumerate() {
             if xj != 0.0 {

@@ -75,10 +75,10 @@ pub struct SolveArgs {
     /// Basis functions.
     #[arg(long, value_enum, default_value = "gaussian")]
     pub basis: BasisArg,
-    /// Also compute the re-im cross-validation curve for lambda.csv and the
-    /// lambda plot when another rule decides (two more lambda sweeps).
+    /// Skip the re-im cross-validation curve when another rule decides
+    /// (saves two lambda sweeps; lambda.csv then has no recv_score column).
     #[arg(long)]
-    pub all_rules: bool,
+    pub no_cv_curve: bool,
     /// Print summary.json to standard output.
     #[arg(long)]
     pub json: bool,

@@ -38,7 +38,7 @@ pub fn drt_options_from(solve: &SolveArgs, default_per_decade: f64) -> Result<Dr
         },
         penalty_order: solve.penalty_order,
         lambda,
-        all_curves: solve.all_rules,
+        all_curves: !solve.no_cv_curve,
         ..DrtOptions::default()
     };
     p.validate()?;
@@ -80,6 +80,10 @@ pub fn run(a: &InvertArgs) -> Result<()> {
         })
         .into_iter()
         .collect();
+    // Said at once, so a user whose inversion then fails still sees it.
+    for w in &reader_warnings {
+        eprintln!("warning: {}: {w}", a.input.display());
+    }
     let out = a.out.clone().unwrap_or_else(|| default_out_dir(&a.input));
     let (summary, written) = invert_into(
         &a.input,
@@ -94,7 +98,8 @@ pub fn run(a: &InvertArgs) -> Result<()> {
 
 /// Inverts `spectrum` (read from `input`) and commits every output to `out`
 /// together; returns the summary and the files written. `reader_warnings`
-/// (doubts the reader had about the file) lead the result's warnings.
+/// (doubts the reader had about the file, already printed) lead the
+/// summary's warnings.
 pub fn invert_into(
     input: &Path,
     spectrum: &Spectrum,
@@ -105,8 +110,8 @@ pub fn invert_into(
 ) -> Result<(Summary, Vec<PathBuf>)> {
     // Whole-spectrum problems name the file they came from.
     let mut inv = invert(spectrum, params).with_context(|| input.display().to_string())?;
-    inv.drt.warnings.splice(0..0, reader_warnings);
     print_warnings(input, &inv.drt);
+    inv.drt.warnings.splice(0..0, reader_warnings);
     let summary = Summary::new(&input.display().to_string(), spectrum, params, &inv);
     let written = write_outputs(out, spectrum, &inv, &summary, plots)?;
     Ok((summary, written))

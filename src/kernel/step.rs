@@ -43,7 +43,11 @@ pub enum StepShape {
 /// Builds the `m x n` kernel (times x basis functions) for samples or bins
 /// with mean times `time_s` (> 0) and within-bin time variances
 /// `time_var_s2` (0 for single samples).
+///
+/// # Panics
+/// When `time_s` and `time_var_s2` differ in length.
 pub fn step_kernel(basis: &Basis, shape: StepShape, time_s: &[f64], time_var_s2: &[f64]) -> Matrix {
+    assert_eq!(time_s.len(), time_var_s2.len(), "one time spread per time");
     Matrix(step_kernel_dense(basis, shape, time_s, time_var_s2))
 }
 

@@ -4,6 +4,7 @@ use crate::grid::TauGrid;
 use crate::kernel::BasisKind;
 use crate::lambda::{LambdaChoice, LambdaGrid, LambdaRule};
 use crate::peaks::PeakOptions;
+use crate::solve::NnlsParams;
 use crate::{Error, Result};
 
 /// The default rule, chosen by the accuracy benchmark in `docs/lambda-rules.md`.
@@ -43,13 +44,15 @@ pub struct DrtOptions {
     /// Weight of the prior against distribution mass beyond the measured
     /// band, relative to the data's scale (0 switches it off).
     pub extension_prior: f64,
+    /// Tolerances and iteration limit of every NNLS solve.
+    pub nnls: NnlsParams,
 }
 
 impl Default for DrtOptions {
     /// 10 points per decade, one decade of extension, Gaussian basis, ridge
     /// penalty (k = 0), lambda by [`DEFAULT_RULE`] over 1e-8..1e1 at 3 per
-    /// decade with a floor of 1e-6, 5 output samples per grid step and an
-    /// extension prior of 1e-2.
+    /// decade with a floor of 1e-6, 5 output samples per grid step, an
+    /// extension prior of 1e-2 and the default [`NnlsParams`].
     fn default() -> Self {
         Self {
             per_decade: 10.0,
@@ -69,6 +72,7 @@ impl Default for DrtOptions {
             peaks: PeakOptions::default(),
             oversample: 5,
             extension_prior: 1e-2,
+            nnls: NnlsParams::default(),
         }
     }
 }

@@ -163,7 +163,7 @@ impl Plan {
             // Once per plan: the column-by-column product (its rounding
             // is the one the outputs were first published with).
             let ata = a.tr_mul(&a);
-            let prior = plan.prior_for(&a, ncols);
+            let prior = plan.prior_for(&a);
             plan.fixed = Some(Prepared {
                 a: Arc::new(a),
                 ata: Arc::new(ata),
@@ -220,7 +220,7 @@ impl Plan {
     }
 
     /// The extension prior for the design `a` (basis columns first), as the
-    /// Gram matrix `E` padded to `ncols` and its factor `weight * s`:
+    /// plan's Gram matrix `E` (all plan columns) and its factor `weight * s`:
     /// `E_ij = integral w(y) phi_i(y) phi_j(y) dy`, `w(y)` the squared
     /// distance in decades from `y = ln tau` to the band the data resolve
     /// (zero inside), and `s = sum_j |A_j|^2 / (n integral phi^2)` the
@@ -228,17 +228,12 @@ impl Plan {
     /// allowed but costs more the further out it sits, so the extension
     /// reduces truncation error without absorbing noise as resistance (our
     /// choice; see docs/lambda-rules.md).
-    fn prior_for(&self, a: &DMatrix<f64>, ncols: usize) -> Option<(Arc<DMatrix<f64>>, f64)> {
+    fn prior_for(&self, a: &DMatrix<f64>) -> Option<(Arc<DMatrix<f64>>, f64)> {
         let ext = self.extension.as_ref()?;
         let n = self.n_gamma;
         let data_scale = (0..n).map(|j| a.column(j).norm_squared()).sum::<f64>()
             / (n as f64 * self.basis.self_overlap());
-        let padded = if ext.ncols() == ncols {
-            ext.clone()
-        } else {
-            Arc::new(ext.clone_owned().resize(ncols, ncols, 0.0))
-        };
-        Some((padded, self.opts.extension_prior * data_scale))
+        Some((ext.clone(), self.opts.extension_prior * data_scale))
     }
 
     /// The scaled regularised problem of one response: right-hand side `b`
@@ -246,6 +241,17 @@ impl Plan {
     /// has none fixed, and the plan columns `dropped` (series terms that
     /// this response does not use).
     pub(crate) fn problem(
+        &self,
+        b: Vec<f64>,
+        row_scale: Option<&[f64]>,
+        dropped: &[usize],
+    ) -> Result<Tikhonov> {
+        Ok(self
+            .assemble(b, row_scale, dropped)?
+            .with_nnls_params(self.opts.nnls))
+    }
+
+    fn assemble(
         &self,
         b: Vec<f64>,
         row_scale: Option<&[f64]>,
@@ -298,7 +304,13 @@ impl Plan {
                 }
                 let a = self.weighted(scale, &keep);
                 let ata = crate::linalg::gram_dense(&a);
-                let prior = self.prior_for(&a, k);
+                let prior = self.prior_for(&a).map(|(e, f)| {
+                    if dropped.is_empty() {
+                        (e, f)
+                    } else {
+                        (Arc::new(sub(&e)), f)
+                    }
+                });
                 Ok(Tikhonov::from_parts(
                     Arc::new(a),
                     b,
@@ -381,6 +393,7 @@ impl Plan {
         let peaks = find_peaks(&self.sampler.ln_tau, &gamma, &peak_opts);
         let mut warnings = warnings;
         warnings.extend(solved.selection.warning());
+        warnings.extend(solved.info.warning());
         Distribution {
             unit,
             grid: self.grid.clone(),
@@ -423,8 +436,9 @@ fn extension_gram(basis: &Basis, band: (f64, f64)) -> DMatrix<f64> {
             continue;
         };
         let w = d * d * h;
-        let lo = (((y - reach - c[0]) / basis.step()).floor().max(0.0)) as usize;
-        let hi = ((((y + reach - c[0]) / basis.step()).ceil()) as usize).min(n - 1);
+        let Some((lo, hi)) = basis.reach(y, reach) else {
+            continue;
+        };
         for i in lo..=hi {
             let pi = basis.shape(y - c[i]);
             if pi == 0.0 {
@@ -441,11 +455,19 @@ fn extension_gram(basis: &Basis, band: (f64, f64)) -> DMatrix<f64> {
 /// The distribution `sum_j c_j phi_j(ln tau)` sampled `oversample` times per
 /// grid step, from `min(half support, 3 steps)` before the first centre to as
 /// far past the last, so the whole area is sampled. Returns `(ln tau, values)`.
+///
+/// # Panics
+/// When `coeffs` does not hold one value per basis function.
 pub fn sample_distribution(
     basis: &Basis,
     coeffs: &[f64],
     oversample: usize,
 ) -> (Vec<f64>, Vec<f64>) {
+    assert_eq!(
+        coeffs.len(),
+        basis.len(),
+        "one coefficient per basis function"
+    );
     let ln_tau = sample_points(basis, oversample);
     let values = basis.evaluate(coeffs, &ln_tau);
     (ln_tau, values)

@@ -38,7 +38,8 @@ impl DistributionUnit {
 #[serde(rename_all = "lowercase")]
 pub enum GridEdge {
     /// The smallest grid value (the data asked for less smoothing than the
-    /// grid offers), or no choice at all.
+    /// grid offers), or no choice at all (then the floor, or the smallest
+    /// grid value, is used).
     Lower,
     /// The largest grid value (the rule wants more smoothing than the grid
     /// offers: the distribution is as flat as the grid allows).
@@ -67,6 +68,8 @@ pub struct LambdaSelection {
 
 impl LambdaSelection {
     /// A sentence for the user when the choice deserves doubt, else `None`.
+    /// A choice raised to the floor is the designed response to data that
+    /// ask for no smoothing at all and gets none.
     pub fn warning(&self) -> Option<String> {
         let rule = self.rule?;
         let curves = self.curves.as_ref()?;
@@ -74,23 +77,19 @@ impl LambdaSelection {
         match (self.rule_choice, self.grid_edge) {
             (None, _) => Some(format!(
                 "the {rule} rule found no lambda on its grid ({lo:.0e} to {hi:.0e}); used {:.3e} \
-                 (give --lambda VALUE or another rule)",
+                 (fix lambda or choose another rule)",
                 self.lambda
             )),
             (Some(c), Some(GridEdge::Upper)) => Some(format!(
-                "the {rule} rule chose lambda = {c:.3e}, the largest value of its grid: the data \
-                 support no more detail than the smoothest distribution the grid allows; the \
-                 model may not describe this measurement"
+                "the {rule} rule chose lambda = {c:.3e}, the largest value of its grid: it asks \
+                 for more smoothing than the grid allows; the data may be noisier than the rule \
+                 estimates, or the model may not describe this measurement"
             )),
-            (Some(c), Some(GridEdge::Lower)) => Some(format!(
-                "the {rule} rule chose lambda = {c:.3e}, the smallest value of its grid{}",
-                if self.floored {
-                    format!(" (raised to the floor {:.1e})", self.lambda)
-                } else {
-                    String::new()
-                }
+            (Some(c), Some(GridEdge::Lower)) if !self.floored => Some(format!(
+                "the {rule} rule chose lambda = {c:.3e}, the smallest value of its grid: the \
+                 distribution may be under-smoothed (ripple can show as small peaks)"
             )),
-            (Some(_), None) => None,
+            _ => None,
         }
     }
 }
@@ -119,6 +118,43 @@ pub struct SolveInfo {
     pub unknowns: usize,
     /// Effective number of parameters at the final lambda.
     pub dof: f64,
+}
+
+impl SolveInfo {
+    /// A sentence for the user when the final solve (or the lambda path that
+    /// chose it) did not simply converge, else `None`.
+    pub fn warning(&self) -> Option<String> {
+        Some(match self.status {
+            SolveStatus::Converged => return None,
+            SolveStatus::Degenerate => format!(
+                "a singular subproblem of the solver needed a diagonal shift of {:.1e}: the \
+                 result is optimal for the shifted problem (KKT residual {:.1e})",
+                self.shift, self.kkt_residual
+            ),
+            SolveStatus::MaxIterations => format!(
+                "the active-set solver stopped at its iteration limit (path: {}); the result is \
+                 its last feasible iterate, not the optimum (KKT residual {:.1e})",
+                status_name(self.path_status),
+                self.kkt_residual
+            ),
+            SolveStatus::Unbounded => "the regularised problem is unbounded (an unknown the \
+                 data and the penalty do not fix); the result is not a solution"
+                .to_string(),
+            SolveStatus::NonFinite => "the problem holds values that are not finite (overflow \
+                 or underflow of the data's scale); the distribution is empty"
+                .to_string(),
+        })
+    }
+}
+
+fn status_name(s: SolveStatus) -> &'static str {
+    match s {
+        SolveStatus::Converged => "converged",
+        SolveStatus::Degenerate => "degenerate",
+        SolveStatus::MaxIterations => "iteration limit",
+        SolveStatus::Unbounded => "unbounded",
+        SolveStatus::NonFinite => "non-finite",
+    }
 }
 
 /// A non-negative distribution of relaxation times and what came with it,

@@ -273,6 +273,14 @@ impl SpectrumPlan {
                 z_im_ohm.len()
             )));
         }
+        for (name, part) in [("z_re_ohm", z_re_ohm), ("z_im_ohm", z_im_ohm)] {
+            if let Some(i) = part.iter().position(|v| !v.is_finite()) {
+                return Err(Error::Data(format!(
+                    "{name}[{i}] must be finite, found {}",
+                    part[i]
+                )));
+            }
+        }
         let modulus: Vec<f64> = z_re_ohm
             .iter()
             .zip(z_im_ohm)
@@ -553,6 +561,36 @@ mod tests {
         assert_eq!(alone.drt.gamma, b.drt.gamma);
     }
 
+    /// A solver stopped by its iteration limit says so in the result's
+    /// status and warnings; it is not reported as converged.
+    #[test]
+    fn a_solver_cut_short_is_reported() {
+        let s = reference_spectrum(&cells::zarc_plus_voigt(), 0.001, 1).unwrap();
+        let mut params = InvertParams::default();
+        params.drt.nnls.max_iter = Some(2);
+        let inv = invert(&s, &params).unwrap();
+        assert_eq!(
+            inv.drt.info.status,
+            crate::solve::SolveStatus::MaxIterations
+        );
+        assert!(
+            inv.drt
+                .warnings
+                .iter()
+                .any(|w| w.contains("iteration limit")),
+            "{:?}",
+            inv.drt.warnings
+        );
+        let fine = invert(&s, &InvertParams::default()).unwrap();
+        assert_eq!(fine.drt.info.status, crate::solve::SolveStatus::Converged);
+        assert!(fine.drt.warnings.is_empty(), "{:?}", fine.drt.warnings);
+        assert!(
+            fine.drt.info.kkt_residual < 1e-9,
+            "{}",
+            fine.drt.info.kkt_residual
+        );
+    }
+
     #[test]
     fn responses_that_do_not_fit_the_plan_are_refused() {
         let s = reference_spectrum(&cells::voigt(), 0.0, 1).unwrap();
@@ -563,9 +601,13 @@ mod tests {
             .unwrap_err()
             .to_string();
         assert!(e.contains("frequencies but"), "{e}");
-        let mut bad = s.z_re_ohm.clone();
+        let mut bad = s.z_im_ohm.clone();
         bad[3] = f64::NAN;
-        assert!(plan.invert(&bad, &s.z_im_ohm, None).is_err());
+        let e = plan
+            .invert(&s.z_re_ohm, &bad, None)
+            .unwrap_err()
+            .to_string();
+        assert!(e.contains("z_im_ohm[3]"), "{e}");
         let e = SpectrumPlan::new(&[1.0, 10.0, 5.0], &InvertParams::default())
             .unwrap_err()
             .to_string();

@@ -283,6 +283,10 @@ pub struct TransientPlan {
     params: TransientParams,
     time_s: Vec<f64>,
     counts: Vec<usize>,
+    /// Spread of the times in each bin (s^2): part of the kernel.
+    time_var_s2: Vec<f64>,
+    /// First and last sample times (s): they set the grid.
+    span_s: (f64, f64),
     /// Square root of each bin's count over the mean count.
     row_scale: Vec<f64>,
     col_c: Option<usize>,
@@ -364,6 +368,8 @@ impl TransientPlan {
             params: params.clone(),
             time_s: t,
             counts: bins.iter().map(|b| b.count).collect(),
+            time_var_s2: var,
+            span_s: (record.first_time_s, record.last_time_s),
             row_scale,
             col_c,
             t_max,
@@ -391,6 +397,17 @@ impl TransientPlan {
             return Err(Error::Data(format!(
                 "the plan has {m} time bins but the response gives {} values",
                 values.len()
+            )));
+        }
+        if let Some(i) = values.iter().position(|v| !v.is_finite()) {
+            return Err(Error::Data(format!(
+                "values[{i}] must be finite, found {}",
+                values[i]
+            )));
+        }
+        if let Some(v) = pre_step_mean.filter(|v| !v.is_finite()) {
+            return Err(Error::Data(format!(
+                "the pre-step mean must be finite, found {v}"
             )));
         }
         let p = &self.params;
@@ -442,17 +459,19 @@ impl TransientPlan {
     }
 
     fn check_axis(&self, record: &BinnedTransient) -> Result<Vec<f64>> {
+        let same_bits = |a: f64, b: f64| a.to_bits() == b.to_bits();
         let same = record.bins.len() == self.time_s.len()
-            && record
-                .bins
-                .iter()
-                .zip(&self.time_s)
-                .zip(&self.counts)
-                .all(|((b, t), n)| b.time_s.to_bits() == t.to_bits() && b.count == *n);
+            && same_bits(record.first_time_s, self.span_s.0)
+            && same_bits(record.last_time_s, self.span_s.1)
+            && record.bins.iter().enumerate().all(|(i, b)| {
+                same_bits(b.time_s, self.time_s[i])
+                    && same_bits(b.time_var_s2, self.time_var_s2[i])
+                    && b.count == self.counts[i]
+            });
         if !same {
             return Err(Error::Data(format!(
-                "the record's {} time bins differ from the plan's {} (times or sample counts): \
-                 build a plan for this record's time axis",
+                "the record's {} time bins differ from the plan's {} (times, their spread, \
+                 sample counts or record span): build a plan for this record's time axis",
                 record.bins.len(),
                 self.time_s.len()
             )));
@@ -625,5 +644,15 @@ mod tests {
         let other = record(0.02, 9, &log_times(2e-5, 1.0, 50.0));
         let e = plan.invert(&other, None).unwrap_err().to_string();
         assert!(e.contains("differ from the plan"), "{e}");
+        // Same bin means and counts, other spread of times: refused too (the
+        // kernel's bin correction depends on it).
+        let mut jittered = first.clone();
+        jittered.bins[20].time_var_s2 *= 1.5;
+        let e = plan.invert(&jittered, None).unwrap_err().to_string();
+        assert!(e.contains("differ from the plan"), "{e}");
+        let mut bad = first.clone();
+        bad.bins[3].value = f64::INFINITY;
+        let e = plan.invert(&bad, None).unwrap_err().to_string();
+        assert!(e.contains("values[3]"), "{e}");
     }
 }

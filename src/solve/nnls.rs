@@ -202,7 +202,17 @@ pub struct NnlsSolution {
 /// the module documentation for the pivot threshold, the handling of singular
 /// subproblems and the anti-cycling rules, and [`SolveStatus`] for what each
 /// outcome returns.
+///
+/// # Panics
+/// When `q` is not square with one row per entry of `c`.
 pub fn nnls(q: &Matrix, c: &[f64], warm: &[usize], params: &NnlsParams) -> NnlsSolution {
+    assert!(
+        q.nrows() == c.len() && q.ncols() == c.len(),
+        "nnls needs a {0} x {0} matrix for {0} gradient entries, got {1} x {2}",
+        c.len(),
+        q.nrows(),
+        q.ncols()
+    );
     nnls_dense(q.dense(), c, warm, params)
 }
 

@@ -104,11 +104,19 @@ impl Tikhonov {
     /// Adds a fixed quadratic term `x' P x` (not scaled by `lambda`) to the
     /// objective: a prior that holds independently of the regularisation
     /// strength. It is not counted in `penalty_sq` nor in the data fit.
-    #[must_use]
-    pub fn with_prior(mut self, prior: Matrix) -> Self {
-        debug_assert_eq!(prior.nrows(), self.ncols());
+    ///
+    /// Fails when `prior` is not `n x n` for the `n` unknowns.
+    pub fn with_prior(mut self, prior: Matrix) -> crate::Result<Self> {
+        if prior.nrows() != self.ncols() || prior.ncols() != self.ncols() {
+            return Err(crate::Error::Data(format!(
+                "a problem with {} unknowns needs a {0} x {0} prior, got {} x {}",
+                self.ncols(),
+                prior.nrows(),
+                prior.ncols()
+            )));
+        }
         self.prior = Some((Arc::new(prior.0), 1.0));
-        self
+        Ok(self)
     }
 
     /// The tolerances of every NNLS solve of this problem.
@@ -135,6 +143,9 @@ impl Tikhonov {
     }
 
     /// The same problem restricted to a subset of rows (used by cross-validation).
+    ///
+    /// # Panics
+    /// When a row index is out of range.
     pub fn rows(&self, rows: &[usize]) -> Self {
         let a = self.a.select_rows(rows);
         let b = DVector::from_fn(rows.len(), |i, _| self.b[rows[i]]);
@@ -196,6 +207,9 @@ impl Tikhonov {
     }
 
     /// The full objective `||Ax - b||^2 + lambda x'Mx + x'Px` at `x`.
+    ///
+    /// # Panics
+    /// When `x` does not hold one value per unknown.
     pub fn objective(&self, lambda: f64, x: &[f64]) -> f64 {
         let xv = DVector::from_column_slice(x);
         let r = self.a.as_ref() * &xv - &self.b;
@@ -264,6 +278,9 @@ impl Tikhonov {
     }
 
     /// Predicted right-hand side `A x`.
+    ///
+    /// # Panics
+    /// When `x` does not hold one value per unknown.
     pub fn predict(&self, x: &[f64]) -> Vec<f64> {
         (self.a.as_ref() * DVector::from_column_slice(x))
             .iter()
@@ -275,6 +292,9 @@ impl Tikhonov {
     /// `tr H = tr( A_F (A_F' A_F + lambda M_FF + P_FF)^{-1} A_F' )`, the effective number
     /// of fitted parameters at a constrained solution: bound variables are held
     /// at zero and do not respond to the data.
+    ///
+    /// # Panics
+    /// When an index of `free` is out of range.
     pub fn influence_trace(&self, lambda: f64, free: &[usize]) -> f64 {
         let p = free.len();
         if p == 0 {

@@ -46,12 +46,8 @@ fn demo_data_inverts_with_every_output() {
     assert!(fit.starts_with(
         "frequency_hz,z_re_ohm,z_im_ohm,fit_re_ohm,fit_im_ohm,residual_re_rel,residual_im_rel\n"
     ));
-    // The curves of one lambda sweep; re-im CV needs two more sweeps and is
-    // computed when asked for (--all-rules, below) or when it decides.
     let lam = std::fs::read_to_string(out.join("lambda.csv")).unwrap();
-    assert!(lam.starts_with(
-        "lambda,residual_sq,penalty_sq,dof,gcv_score,lcurve_curvature,discrepancy_ratio\n"
-    ));
+    assert!(lam.starts_with("lambda,residual_sq,penalty_sq,dof,gcv_score,lcurve_curvature,discrepancy_ratio,recv_score\n"));
 
     let json: serde_json::Value =
         serde_json::from_str(&std::fs::read_to_string(out.join("summary.json")).unwrap()).unwrap();
@@ -174,14 +170,14 @@ fn demo_command_writes_data_and_plots() {
     );
 }
 
-/// `--all-rules` adds the re-im cross-validation curve to lambda.csv and its
-/// choice to the candidates; the chosen lambda does not change.
+/// `--no-cv-curve` leaves out the re-im cross-validation curve (two lambda
+/// sweeps) and its candidate; the chosen lambda does not change.
 #[test]
-fn all_rules_adds_the_cross_validation_curve() {
+fn no_cv_curve_skips_the_cross_validation_curve_only() {
     let dir = tempdir();
     let input = repo_root().join("demo-data/button-cell-700c.csv");
     let mut lambdas = Vec::new();
-    for (sub, extra) in [("one", None), ("all", Some("--all-rules"))] {
+    for (sub, extra) in [("all", None), ("quick", Some("--no-cv-curve"))] {
         let out = dir.path().join(sub);
         let mut args = vec![
             "invert",
@@ -195,12 +191,12 @@ fn all_rules_adds_the_cross_validation_curve() {
         assert_eq!(run.code, 0, "{}", run.explain());
         let lam = std::fs::read_to_string(out.join("lambda.csv")).unwrap();
         let header = lam.lines().next().unwrap();
-        assert_eq!(header.ends_with(",recv_score"), extra.is_some(), "{header}");
+        assert_eq!(header.ends_with(",recv_score"), extra.is_none(), "{header}");
         let json: serde_json::Value =
             serde_json::from_str(&std::fs::read_to_string(out.join("summary.json")).unwrap())
                 .unwrap();
         let n_candidates = json["lambda_candidates"].as_array().unwrap().len();
-        assert_eq!(n_candidates, if extra.is_some() { 4 } else { 3 });
+        assert_eq!(n_candidates, if extra.is_none() { 4 } else { 3 });
         lambdas.push(json["lambda"].as_f64().unwrap());
     }
     assert_eq!(lambdas[0].to_bits(), lambdas[1].to_bits());
