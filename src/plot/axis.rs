@@ -87,7 +87,14 @@ impl Extent {
 pub(crate) fn pad(scale: Scale, lo: f64, hi: f64) -> (f64, f64) {
     let span = hi - lo;
     let size = lo.abs().max(hi.abs());
-    if span > 1e-12 * size && span > f64::MIN_POSITIVE {
+    // On a log axis the coordinates of values near 1 are near 0, so a
+    // relative test would take rounding (1 vs 1 + 2e-16, 1e-16 decade) for
+    // a range; below 1e-9 decade the values are one value.
+    let wide = match scale {
+        Scale::Log => span > 1e-9,
+        Scale::Linear => span > 1e-12 * size && span > f64::MIN_POSITIVE,
+    };
+    if wide {
         let m = 0.05 * span;
         return (lo - m, hi + m);
     }
@@ -157,16 +164,14 @@ fn multiples(lo: f64, hi: f64, step: f64) -> Vec<f64> {
     }
     let first = (lo / step - 1e-9).ceil();
     let last = (hi / step + 1e-9).floor();
-    if !(first.is_finite() && last.is_finite()) || last - first > 1000.0 {
+    if !(first.is_finite() && last.is_finite() && (0.0..=1000.0).contains(&(last - first))) {
         return Vec::new();
     }
-    let mut out = Vec::new();
-    let mut k = first;
-    while k <= last {
-        out.push(k * step);
-        k += 1.0;
-    }
-    out
+    // An integer count, not `k += 1.0`: beyond 2^53 adding one to a float
+    // changes nothing, and a range far narrower than its position (a
+    // constant |Z| of 1 ohm fitted to 1 + 2e-16) once looped forever here.
+    let count = (last - first) as usize;
+    (0..=count).map(|i| (first + i as f64) * step).collect()
 }
 
 fn log_ticks(lo: f64, hi: f64, max_ticks: usize) -> Ticks {
@@ -426,6 +431,30 @@ mod tests {
         assert_eq!(fmt_step(2.5e-6, 5e-7), "2.5×10⁻⁶");
         assert_eq!(fmt_step(-3e5, 1e5), "-3×10⁵");
         assert_eq!(fmt_sci(9.9996e-4, 2), "1.00×10⁻³");
+    }
+
+    /// A range far narrower than its distance from zero gives a bounded
+    /// list of ticks (it once looped forever: 1 + k ulp never changed k).
+    #[test]
+    fn multiples_terminate_far_from_zero() {
+        let step = 5e-17;
+        let t = multiples(1.0, 1.0 + 2.0 * f64::EPSILON, step);
+        assert!(t.len() <= 1001, "{}", t.len());
+        assert!(multiples(1e300, 1e300, 1e-300).is_empty());
+        // Normal use unchanged: 0, 0.5, 1, 1.5, 2.
+        assert_eq!(multiples(-0.1, 2.1, 0.5), vec![0.0, 0.5, 1.0, 1.5, 2.0]);
+    }
+
+    /// |Z| = 1 ohm against a fit of 1 + 2e-16 ohm is one value on a log
+    /// axis: a decade around it, with decade ticks.
+    #[test]
+    fn log_axis_of_a_constant_with_rounding_is_a_decade() {
+        let mut e = Extent::new(Scale::Log);
+        e.add_all([1.0, 1.0 + 2.0 * f64::EPSILON]);
+        let a = e.finish("|Z|").unwrap();
+        assert!((a.hi - a.lo - 1.0).abs() < 1e-12, "{} {}", a.lo, a.hi);
+        let t = a.ticks(5);
+        assert!(!t.bold.is_empty() && t.bold.len() < 20, "{:?}", t.bold);
     }
 
     #[test]

@@ -1,6 +1,6 @@
 //! The binary on real files: outputs present, JSON keys, CSV headers.
 
-use crate::util::{repo_root, taumap, tempdir, voigt_csv};
+use crate::util::{repo_root, taumap, taumap_within, tempdir, voigt_csv};
 
 #[test]
 fn demo_data_inverts_with_every_output() {
@@ -230,4 +230,33 @@ fn lambda_on_the_grid_edge_is_flagged() {
         "{}",
         run.explain()
     );
+}
+
+/// A precision resistor that the model fits exactly (Z = 1 + 0j ohm at every
+/// frequency, as an export that rounds Z'' to zero gives): every plot copes
+/// with the constant modulus fitted to 1 + 2e-16 ohm. The log axis of that
+/// range once looped forever and grew without bound in memory.
+#[test]
+fn exact_resistor_plots_finish() {
+    let dir = tempdir();
+    let mut csv = String::from("frequency_hz,z_re_ohm,z_im_ohm\n");
+    for k in 0..31 {
+        csv.push_str(&format!("{:e},1,0\n", 10f64.powf(k as f64 / 5.0 - 1.0)));
+    }
+    std::fs::write(dir.path().join("r1.csv"), csv).unwrap();
+    let run = taumap_within(
+        dir.path(),
+        &["invert", "r1.csv", "--out", "out"],
+        std::time::Duration::from_secs(60),
+    );
+    assert_eq!(run.code, 0, "{}", run.explain());
+    for name in ["drt.png", "nyquist.svg", "bode.png", "lambda.svg"] {
+        assert!(dir.path().join("out").join(name).exists(), "{name}");
+    }
+    let json: serde_json::Value = serde_json::from_str(
+        &std::fs::read_to_string(dir.path().join("out/summary.json")).unwrap(),
+    )
+    .unwrap();
+    assert!((json["r_inf_ohm"].as_f64().unwrap() - 1.0).abs() < 1e-9);
+    assert!(json["r_pol_ohm"].as_f64().unwrap().abs() < 1e-9);
 }

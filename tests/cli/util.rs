@@ -37,6 +37,44 @@ pub fn taumap(dir: &Path, args: &[&str]) -> Run {
     }
 }
 
+/// Runs the binary like [`taumap`], but kills it and fails the test when it
+/// takes longer than `limit` (a hang must fail, not stall the suite).
+pub fn taumap_within(dir: &Path, args: &[&str], limit: std::time::Duration) -> Run {
+    use std::io::Read;
+    let mut child = Command::new(env!("CARGO_BIN_EXE_taumap"))
+        .args(args)
+        .current_dir(dir)
+        .stdout(std::process::Stdio::piped())
+        .stderr(std::process::Stdio::piped())
+        .spawn()
+        .expect("the test binary can be started");
+    let start = std::time::Instant::now();
+    let status = loop {
+        if let Some(status) = child.try_wait().expect("the child can be polled") {
+            break status;
+        }
+        if start.elapsed() > limit {
+            let _ = child.kill();
+            let _ = child.wait();
+            panic!("taumap {} did not finish within {limit:?}", args.join(" "));
+        }
+        std::thread::sleep(std::time::Duration::from_millis(20));
+    };
+    let (mut stdout, mut stderr) = (String::new(), String::new());
+    if let Some(mut o) = child.stdout.take() {
+        let _ = o.read_to_string(&mut stdout);
+    }
+    if let Some(mut e) = child.stderr.take() {
+        let _ = e.read_to_string(&mut stderr);
+    }
+    Run {
+        code: status.code().unwrap_or(-1),
+        stdout,
+        stderr,
+        cmdline: format!("taumap {}", args.join(" ")),
+    }
+}
+
 /// Checks what every failed run must show: exit code 2, a first line
 /// starting `error: ` and containing `needle`, no panic, and no output
 /// directory `out` in `dir`.
