@@ -381,9 +381,12 @@ fn wrong_sign_is_flagged() {
     let mut p = TransientParams::new(StepKind::CurrentStep { current_a: 0.2 });
     p.baseline = Some(3.7);
     let inv = invert_transient(&rec, &p).unwrap();
-    // Two doubts: the sign, and (a consequence: no non-negative model fits a
-    // falling voltage) a lambda rule pushed to the top of its grid.
-    assert_eq!(inv.drt.warnings.len(), 2, "{:?}", inv.drt.warnings);
+    // Four doubts: the sign, then its consequences (no non-negative model
+    // fits a falling voltage): a lambda rule pushed to the top of its grid,
+    // an empty distribution, a residual far above any noise.
+    assert_eq!(inv.drt.warnings.len(), 4, "{:?}", inv.drt.warnings);
+    assert!(inv.drt.warnings[2].contains("distribution is empty"));
+    assert!(inv.drt.warnings[3].contains("the fit misses the data"));
     assert!(
         inv.drt.warnings[0].contains("check the sign"),
         "{:?}",

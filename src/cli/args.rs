@@ -56,7 +56,12 @@ pub enum WeightingArg {
 #[derive(Args, Debug, Clone)]
 pub struct SolveArgs {
     /// Regularisation: a rule (gcv, lcurve, discrepancy, recv) or a positive number.
-    #[arg(long, value_name = "RULE|VALUE", default_value = "discrepancy")]
+    #[arg(
+        long,
+        value_name = "RULE|VALUE",
+        default_value = "discrepancy",
+        allow_negative_numbers = true
+    )]
     pub lambda: String,
     /// Derivative order of the penalty: 0, 1 or 2.
     #[arg(long, value_name = "K", default_value_t = 0)]

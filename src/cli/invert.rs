@@ -1,12 +1,11 @@
 //! `taumap invert`: spectrum in, DRT, fit, summary and plots out.
 
 use super::args::{BasisArg, InductanceArg, InvertArgs, SolveArgs, WeightingArg};
-use super::output::{FORMATS, add_distribution, lambda_phrase, print_warnings};
+use super::output::{FORMATS, add_distribution, lambda_phrase, output_set, print_warnings};
 use anyhow::{Context, Result, bail};
 use std::path::{Path, PathBuf};
 use taumap::io::Spectrum;
 use taumap::io::spectrum::read_spectrum_with_layout;
-use taumap::io::write::OutputSet;
 use taumap::kernel::BasisKind;
 use taumap::pipeline::{
     DrtOptions, InductanceMode, InvertParams, LambdaChoice, LambdaRule, SpectrumInversion,
@@ -152,7 +151,7 @@ pub fn write_outputs(
     summary: &Summary,
     plots: bool,
 ) -> Result<Vec<PathBuf>> {
-    let mut set = OutputSet::new(out);
+    let mut set = output_set(out);
     add_distribution(
         &mut set,
         &inv.drt,

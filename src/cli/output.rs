@@ -10,6 +10,33 @@ use taumap::pipeline::Distribution;
 use taumap::plot::{self, ImageFormat};
 use taumap::report;
 
+/// Every file an inversion command may write into its output directory. A
+/// run removes those of them it does not write itself (an earlier run's
+/// plots, a `lambda.csv` from before a fixed-lambda run), never anything
+/// else.
+pub const OUTPUT_FILES: [&str; 14] = [
+    "drt.csv",
+    "fit.csv",
+    "lambda.csv",
+    "summary.json",
+    "drt.svg",
+    "drt.png",
+    "lambda.svg",
+    "lambda.png",
+    "nyquist.svg",
+    "nyquist.png",
+    "bode.svg",
+    "bode.png",
+    "transient.svg",
+    "transient.png",
+];
+
+/// An empty set of outputs for `dir` that replaces every earlier
+/// inversion's files there.
+pub fn output_set(dir: &Path) -> OutputSet {
+    OutputSet::new(dir).owning(&OUTPUT_FILES)
+}
+
 /// Both image formats, with their file extensions.
 pub const FORMATS: [(&str, ImageFormat); 2] =
     [("svg", ImageFormat::Svg), ("png", ImageFormat::Png)];

@@ -2,11 +2,10 @@
 
 use super::args::TransientArgs;
 use super::invert::{default_out_dir, drt_options_from};
-use super::output::{FORMATS, add_distribution, lambda_phrase, print_warnings};
+use super::output::{FORMATS, add_distribution, lambda_phrase, output_set, print_warnings};
 use anyhow::{Context, Result};
 use std::path::{Path, PathBuf};
 use taumap::io::transient::read_transient;
-use taumap::io::write::OutputSet;
 use taumap::pipeline::binning::{BinOptions, BinnedTransient};
 use taumap::pipeline::{
     DistributionUnit, StepKind, TRANSIENT_PER_DECADE, TransientParams, invert_transient,
@@ -59,7 +58,7 @@ pub fn transient_into(
     let inv = invert_transient(record, params).with_context(|| input.display().to_string())?;
     print_warnings(input, &inv.drt);
     let summary = TransientSummary::new(&input.display().to_string(), record, bins, params, &inv);
-    let mut set = OutputSet::new(out);
+    let mut set = output_set(out);
     let drt_title = match inv.drt.unit {
         DistributionUnit::Ohm => "Distribution of relaxation times (from the transient)",
         DistributionUnit::Siemens => {

@@ -55,6 +55,9 @@ pub fn write_atomic(path: &Path, bytes: &[u8]) -> Result<()> {
 pub struct OutputSet {
     dir: PathBuf,
     files: Vec<(String, Vec<u8>)>,
+    /// Names an earlier run may have left in `dir` that this set replaces:
+    /// those it does not write are removed after a successful commit.
+    owned: Vec<String>,
 }
 
 impl OutputSet {
@@ -63,7 +66,18 @@ impl OutputSet {
         OutputSet {
             dir: dir.into(),
             files: Vec::new(),
+            owned: Vec::new(),
         }
+    }
+
+    /// Declares the file names this kind of run owns in its directory: after
+    /// a successful commit, every owned name that this set did not write is
+    /// removed, so a directory never holds the plots of one run beside the
+    /// summary of another. Other files in the directory are never touched.
+    #[must_use]
+    pub fn owning(mut self, names: &[&str]) -> Self {
+        self.owned = names.iter().map(|n| n.to_string()).collect();
+        self
     }
 
     /// The directory the files will be written into.
@@ -169,6 +183,20 @@ impl OutputSet {
                     path: target.clone(),
                     source,
                 });
+            }
+        }
+        // Only now, with every new file in place: results of an earlier run
+        // that this one does not replace would be read as this run's.
+        for name in &self.owned {
+            if self.files.iter().any(|(n, _)| n == name) {
+                continue;
+            }
+            let stale = dir.join(name);
+            if fs::symlink_metadata(&stale).is_ok_and(|m| m.is_file()) {
+                fs::remove_file(&stale).map_err(|source| Error::Io {
+                    path: stale.clone(),
+                    source,
+                })?;
             }
         }
         sync_dir(&dir);
@@ -316,6 +344,36 @@ mod tests {
             )
         );
         assert_eq!(set.len(), 1);
+    }
+
+    /// Owned names the new set does not write are removed after the commit;
+    /// files the run does not own stay; a failed commit removes nothing.
+    #[test]
+    fn commit_removes_stale_owned_files_only() {
+        let dir = tempfile::tempdir().unwrap();
+        let owned = ["a.csv", "b.png", "c.json"];
+        let mut first = OutputSet::new(dir.path()).owning(&owned);
+        first.add("a.csv", "1").unwrap();
+        first.add("b.png", "2").unwrap();
+        first.commit().unwrap();
+        fs::write(dir.path().join("notes.txt"), "mine").unwrap();
+        // A failing second run leaves everything as it was.
+        let mut failing = OutputSet::new(dir.path()).owning(&owned);
+        failing.add("a.csv", "x").unwrap();
+        let fail = |_: &Path, _: &[u8]| -> io::Result<()> { Err(io::Error::other("disk full")) };
+        assert!(failing.commit_with(fail).is_err());
+        assert!(dir.path().join("b.png").exists());
+        let mut second = OutputSet::new(dir.path()).owning(&owned);
+        second.add("a.csv", "3").unwrap();
+        second.add("c.json", "4").unwrap();
+        second.commit().unwrap();
+        assert_eq!(fs::read_to_string(dir.path().join("a.csv")).unwrap(), "3");
+        assert!(!dir.path().join("b.png").exists(), "stale plot left behind");
+        assert!(dir.path().join("c.json").exists());
+        assert_eq!(
+            fs::read_to_string(dir.path().join("notes.txt")).unwrap(),
+            "mine"
+        );
     }
 
     #[test]

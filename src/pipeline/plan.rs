@@ -394,6 +394,7 @@ impl Plan {
         let mut warnings = warnings;
         warnings.extend(solved.selection.warning());
         warnings.extend(solved.info.warning());
+        warnings.extend(plausibility(&coeffs, residual_rms_rel, &solved.selection));
         Distribution {
             unit,
             grid: self.grid.clone(),
@@ -416,6 +417,40 @@ impl Plan {
     pub fn band_ln_tau(&self) -> (f64, f64) {
         self.band_ln_tau
     }
+}
+
+/// A residual above this fraction (rms, relative to the front end's scale)
+/// is far above the noise of any usable measurement: good impedance spectra
+/// and step records fit a DRT to 1 % or better (common practice).
+pub const RESIDUAL_WARN_REL: f64 = 0.05;
+
+/// Doubts about a result, each with its rule: a distribution that is empty
+/// (every coefficient zero: the series terms alone explain the data), and a
+/// fit whose residual exceeds [`RESIDUAL_WARN_REL`].
+fn plausibility(coeffs: &[f64], residual_rms_rel: f64, lambda: &LambdaSelection) -> Vec<String> {
+    let mut out = Vec::new();
+    if coeffs.iter().all(|c| *c == 0.0) {
+        let why = if lambda.rule.is_none() {
+            format!(
+                "; the fixed lambda = {:.3e} may be too large",
+                lambda.lambda
+            )
+        } else {
+            String::new()
+        };
+        out.push(format!(
+            "the distribution is empty (every coefficient is zero): the fit uses the series terms alone{why}"
+        ));
+    }
+    if residual_rms_rel > RESIDUAL_WARN_REL {
+        out.push(format!(
+            "the fit misses the data by {:.1} % rms (more than {:.0} %): the distribution does \
+             not describe this measurement; check the data, their signs and the model options",
+            100.0 * residual_rms_rel,
+            100.0 * RESIDUAL_WARN_REL
+        ));
+    }
+    out
 }
 
 fn extension_gram(basis: &Basis, band: (f64, f64)) -> DMatrix<f64> {

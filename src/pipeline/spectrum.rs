@@ -89,6 +89,10 @@ impl InvertParams {
     }
 }
 
+/// The range of the largest |Z| of a spectrum that the scaling handles
+/// (ohm): far beyond any measurement, well inside the floating-point range.
+pub const Z_RANGE_OHM: (f64, f64) = (1e-200, 1e200);
+
 /// The fit of a spectrum, at its frequencies (ascending).
 #[derive(Clone, Debug)]
 pub struct SpectrumFit {
@@ -291,6 +295,14 @@ impl SpectrumPlan {
             return Err(Error::Config(
                 "the impedance is zero at every frequency".into(),
             ));
+        }
+        // 1/|Z| and the scaled unknowns must stay finite with room to spare.
+        if !(Z_RANGE_OHM.0..=Z_RANGE_OHM.1).contains(&z_scale) {
+            return Err(Error::Config(format!(
+                "the largest |Z| is {z_scale:e} ohm, outside the range taumap can scale \
+                 ({:e} to {:e} ohm); check the unit of the impedance columns",
+                Z_RANGE_OHM.0, Z_RANGE_OHM.1
+            )));
         }
         let weight: Vec<f64> = match self.params.weighting {
             Weighting::Modulus => modulus

@@ -1,6 +1,6 @@
 //! The binary on real files: outputs present, JSON keys, CSV headers.
 
-use crate::util::{repo_root, taumap, taumap_within, tempdir, voigt_csv};
+use crate::util::{assert_clean_failure, repo_root, taumap, taumap_within, tempdir, voigt_csv};
 
 #[test]
 fn demo_data_inverts_with_every_output() {
@@ -259,4 +259,121 @@ fn exact_resistor_plots_finish() {
     .unwrap();
     assert!((json["r_inf_ohm"].as_f64().unwrap() - 1.0).abs() < 1e-9);
     assert!(json["r_pol_ohm"].as_f64().unwrap().abs() < 1e-9);
+}
+
+/// A second run into the same folder leaves only its own results: no plots
+/// of the first spectrum beside the summary of the second, no old
+/// lambda.csv after a fixed-lambda run, no Nyquist or Bode plot after a
+/// transient; a file of the user's stays.
+#[test]
+fn second_run_into_one_folder_leaves_no_mixed_outputs() {
+    let dir = tempdir();
+    let spectrum = repo_root().join("demo-data/button-cell-700c.csv");
+    let pulse = repo_root().join("demo-data/button-cell-700c-pulse.csv");
+    let out = dir.path().join("out");
+    let o = out.to_str().unwrap();
+    let run = taumap(
+        dir.path(),
+        &["invert", spectrum.to_str().unwrap(), "--out", o],
+    );
+    assert_eq!(run.code, 0, "{}", run.explain());
+    assert!(out.join("bode.png").exists() && out.join("lambda.csv").exists());
+    std::fs::write(out.join("notes.txt"), "kept").unwrap();
+    let run = taumap(
+        dir.path(),
+        &[
+            "invert",
+            spectrum.to_str().unwrap(),
+            "--out",
+            o,
+            "--lambda",
+            "1e-3",
+            "--no-plots",
+        ],
+    );
+    assert_eq!(run.code, 0, "{}", run.explain());
+    for gone in [
+        "lambda.csv",
+        "drt.png",
+        "bode.svg",
+        "nyquist.png",
+        "lambda.svg",
+    ] {
+        assert!(!out.join(gone).exists(), "{gone} left from the first run");
+    }
+    assert!(out.join("drt.csv").exists() && out.join("summary.json").exists());
+    let run = taumap(
+        dir.path(),
+        &[
+            "transient",
+            pulse.to_str().unwrap(),
+            "--current-step-a",
+            "-0.1",
+            "--out",
+            o,
+        ],
+    );
+    assert_eq!(run.code, 0, "{}", run.explain());
+    assert!(out.join("transient.png").exists());
+    for gone in ["nyquist.svg", "bode.png"] {
+        assert!(!out.join(gone).exists(), "{gone} left beside a transient");
+    }
+    let fit = std::fs::read_to_string(out.join("fit.csv")).unwrap();
+    assert!(fit.starts_with("time_s,"), "fit.csv is the transient's");
+    assert_eq!(
+        std::fs::read_to_string(out.join("notes.txt")).unwrap(),
+        "kept"
+    );
+}
+
+/// Implausible settings and data are said, not printed as numbers: a lambda
+/// so large that the distribution is empty and the fit misses by 70 %, a
+/// negative lambda, magnitudes no scaling can handle.
+#[test]
+fn implausible_results_and_values_are_named() {
+    let dir = tempdir();
+    let demo = repo_root().join("demo-data/button-cell-700c.csv");
+    let d = demo.to_str().unwrap();
+    let run = taumap(
+        dir.path(),
+        &[
+            "invert",
+            d,
+            "--lambda",
+            "1e300",
+            "--json",
+            "--no-plots",
+            "--out",
+            "o",
+        ],
+    );
+    assert_eq!(run.code, 0, "{}", run.explain());
+    let json: serde_json::Value = serde_json::from_str(&run.stdout).unwrap();
+    let warnings: Vec<&str> = json["warnings"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|w| w.as_str().unwrap())
+        .collect();
+    assert!(
+        warnings.iter().any(|w| w.contains("distribution is empty")),
+        "{warnings:?}"
+    );
+    assert!(
+        warnings.iter().any(|w| w.contains("misses the data by")),
+        "{warnings:?}"
+    );
+    assert_eq!(run.stderr.matches("warning: ").count(), warnings.len());
+
+    let run = taumap(dir.path(), &["invert", d, "--lambda", "-1", "--out", "neg"]);
+    assert_clean_failure(&run, "a positive number, got \"-1\"", dir.path(), "neg");
+
+    let mut csv = String::from("frequency_hz,z_re_ohm,z_im_ohm\n");
+    for k in 0..20 {
+        csv.push_str(&format!("{:e},1e-310,-1e-311\n", 10f64.powi(k - 5)));
+    }
+    std::fs::write(dir.path().join("tiny.csv"), csv).unwrap();
+    let run = taumap(dir.path(), &["invert", "tiny.csv", "--out", "tiny"]);
+    assert_clean_failure(&run, "tiny.csv: the largest |Z| is", dir.path(), "tiny");
+    assert!(!run.stderr.contains("NaN"), "{}", run.explain());
 }

@@ -311,15 +311,22 @@ fn wrong_sign_warns_and_fit_start_is_recorded() {
         "{}",
         run.explain()
     );
-    // The sign, then the lambda rule pushed to the top of its grid (no
-    // non-negative model fits a voltage moving against the step).
+    // The sign, then its consequences (no non-negative model fits a voltage
+    // moving against the step): the lambda rule pushed to the top of its
+    // grid, an empty distribution, a residual far above any noise.
     let warnings = json(&run)["warnings"].as_array().unwrap().clone();
-    assert_eq!(warnings.len(), 2, "{}", run.explain());
+    assert_eq!(warnings.len(), 4, "{}", run.explain());
     assert!(warnings[0].as_str().unwrap().contains("check the sign"));
+    assert!(
+        warnings[3]
+            .as_str()
+            .unwrap()
+            .contains("the fit misses the data")
+    );
     assert_eq!(json(&run)["lambda_grid_edge"], "upper");
     assert_eq!(
         run.stderr.matches("warning: dis.csv:").count(),
-        2,
+        4,
         "{}",
         run.explain()
     );
