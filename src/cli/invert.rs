@@ -1,7 +1,7 @@
 //! `taumap invert`: spectrum in, DRT, fit, summary and plots out.
 
 use super::args::{BasisArg, InductanceArg, InvertArgs, SolveArgs, WeightingArg};
-use super::output::{FORMATS, add_distribution, lambda_phrase, output_set, print_warnings};
+use super::output::{FORMATS, add_distribution, fixed6, lambda_phrase, output_set, print_warnings};
 use anyhow::{Context, Result, bail};
 use std::path::{Path, PathBuf};
 use taumap::io::Spectrum;
@@ -121,9 +121,9 @@ pub fn report_run(summary: &Summary, out: &Path, written: &[PathBuf], json: bool
     super::output::report_run(json.then(|| summary.to_json()), out, written, |w| {
         writeln!(
             w,
-            "r_inf = {:.6} ohm, r_pol = {:.6} ohm, {}",
-            summary.r_inf_ohm,
-            summary.r_pol_ohm,
+            "r_inf = {} ohm, r_pol = {} ohm, {}",
+            fixed6(summary.r_inf_ohm),
+            fixed6(summary.r_pol_ohm),
             lambda_phrase(&summary.fit)
         )?;
         if let Some(l) = summary.inductance_h {
@@ -132,11 +132,11 @@ pub fn report_run(summary: &Summary, out: &Path, written: &[PathBuf], json: bool
         for (i, p) in summary.peaks.iter().enumerate() {
             writeln!(
                 w,
-                "peak {}: tau = {:.4e} s ({:.4e} Hz), r = {:.6} ohm",
+                "peak {}: tau = {:.4e} s ({:.4e} Hz), r = {} ohm",
                 i + 1,
                 p.tau_s,
                 p.frequency_hz,
-                p.r_ohm
+                fixed6(p.r_ohm)
             )?;
         }
         Ok(())

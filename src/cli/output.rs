@@ -74,6 +74,17 @@ pub fn print_warnings(input: &Path, drt: &Distribution) {
     }
 }
 
+/// A value for the console: six decimals in the range people read that way
+/// (1e-3 to 1e6, and zero), else six significant digits in exponent form, so
+/// 1e-30 ohm does not print as 0.000000 nor 1e300 as 300 digits.
+pub fn fixed6(v: f64) -> String {
+    if v == 0.0 || (1e-3..1e6).contains(&v.abs()) {
+        format!("{v:.6}")
+    } else {
+        format!("{v:.6e}")
+    }
+}
+
 /// The console's `lambda = ... (rule), residual rms = ... %` phrase.
 pub fn lambda_phrase(fit: &report::FitSummary) -> String {
     format!(
@@ -100,4 +111,18 @@ pub fn report_run(
     human(&mut stdout)?;
     writeln!(stdout, "wrote {} files to {}", written.len(), out.display())?;
     Ok(())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::fixed6;
+
+    #[test]
+    fn console_values_stay_readable_at_any_magnitude() {
+        assert_eq!(fixed6(0.150492), "0.150492");
+        assert_eq!(fixed6(0.0), "0.000000");
+        assert_eq!(fixed6(1e-30), "1.000000e-30");
+        assert_eq!(fixed6(-2.5e300), "-2.500000e300");
+        assert_eq!(fixed6(12345.678), "12345.678000");
+    }
 }

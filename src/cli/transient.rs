@@ -2,7 +2,7 @@
 
 use super::args::TransientArgs;
 use super::invert::{default_out_dir, drt_options_from};
-use super::output::{FORMATS, add_distribution, lambda_phrase, output_set, print_warnings};
+use super::output::{FORMATS, add_distribution, fixed6, lambda_phrase, output_set, print_warnings};
 use anyhow::{Context, Result};
 use std::path::{Path, PathBuf};
 use taumap::io::transient::read_transient;
@@ -116,11 +116,15 @@ pub fn report_run(
                 peaks,
             } => {
                 let r_inf = r_inf_ohm.map_or("unknown (no baseline)".to_string(), |r| {
-                    format!("{r:.6} ohm")
+                    format!("{} ohm", fixed6(r))
                 });
-                writeln!(w, "r_inf = {r_inf}, r_pol = {r_pol_ohm:.6} ohm, {tail}")?;
+                writeln!(
+                    w,
+                    "r_inf = {r_inf}, r_pol = {} ohm, {tail}",
+                    fixed6(*r_pol_ohm)
+                )?;
                 if let Some(v) = v_inf_v {
-                    writeln!(w, "final voltage v_inf = {v:.6} V")?;
+                    writeln!(w, "final voltage v_inf = {} V", fixed6(*v))?;
                 }
                 if let Some(c) = series_capacitance_f {
                     writeln!(w, "series capacitance = {c:.4e} F")?;
@@ -128,10 +132,10 @@ pub fn report_run(
                 for (i, p) in peaks.iter().enumerate() {
                     writeln!(
                         w,
-                        "peak {}: tau = {:.4e} s, r = {:.6} ohm",
+                        "peak {}: tau = {:.4e} s, r = {} ohm",
                         i + 1,
                         p.tau_s,
-                        p.r_ohm
+                        fixed6(p.r_ohm)
                     )?;
                 }
             }

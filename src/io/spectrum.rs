@@ -375,7 +375,7 @@ fn choose_columns(table: &Table) -> Result<Choice> {
     if looks_numeric {
         return Err(header_err(format!(
             "\"{}\" looks like data, not a header (add a header line such as \"{CANONICAL_HEADER}\")",
-            table.header_text
+            crate::io::table::excerpt(&table.header_text)
         )));
     }
     let missing = |what: &str, example: &str| {
@@ -386,7 +386,7 @@ fn choose_columns(table: &Table) -> Result<Choice> {
         };
         header_err(format!(
             "no {what} column found in header \"{}\" (expected e.g. \"{example}\"{hint})",
-            table.header_text
+            crate::io::table::excerpt(&table.header_text)
         ))
     };
 

@@ -303,6 +303,19 @@ impl TableHead {
     }
 }
 
+/// `text` for quoting in a message: whole when short, else its first 40
+/// characters, an ellipsis and the length, so a 1 MB field cannot flood the
+/// terminal.
+pub fn excerpt(text: &str) -> String {
+    const KEEP: usize = 40;
+    let n = text.chars().count();
+    if n <= 2 * KEEP {
+        return text.to_string();
+    }
+    let head: String = text.chars().take(KEEP).collect();
+    format!("{head}... ({n} characters)")
+}
+
 /// Parses `text` (surrounding spaces ignored) as a finite `f64`.
 ///
 /// Accepts the usual decimal and exponent forms (`1000`, `-5.2`, `1e3`,
@@ -319,10 +332,11 @@ pub fn parse_finite(path: &Path, line: usize, text: &str, column: &str) -> Resul
     if t.is_empty() {
         return Err(err(format!("missing value (column {column})")));
     }
+    let shown = excerpt(t);
     match t.parse::<f64>() {
         Ok(v) if v.is_finite() => Ok(v),
         Ok(_) => Err(err(format!(
-            "value \"{t}\" is not finite (column {column})"
+            "value \"{shown}\" is not finite (column {column})"
         ))),
         Err(_) => {
             let decimal_comma = t.contains(',') && t.replacen(',', ".", 1).parse::<f64>().is_ok();
@@ -332,7 +346,7 @@ pub fn parse_finite(path: &Path, line: usize, text: &str, column: &str) -> Resul
                 ""
             };
             Err(err(format!(
-                "cannot read \"{t}\" as a number (column {column}{hint})"
+                "cannot read \"{shown}\" as a number (column {column}{hint})"
             )))
         }
     }

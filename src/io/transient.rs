@@ -135,7 +135,7 @@ pub fn parse_transient<R: BufRead>(
                     &table,
                     format!(
                         "no {label} column found in header \"{}\" (expected e.g. \"{example}\"){other}",
-                        table.header_text
+                        crate::io::table::excerpt(&table.header_text)
                     ),
                 ));
             }
@@ -198,10 +198,26 @@ pub fn parse_transient<R: BufRead>(
             table.header_line,
             format!(
                 "need samples after the step (t > {} s) spread over at least {MIN_BINS} time bins, \
-                 found {} sample(s) in {} bin(s)",
+                 found {} sample(s) in {} bin(s){}",
                 opts.fit_start_s,
                 binned.response_samples,
-                binned.bins.len()
+                binned.bins.len(),
+                // Many samples in few log bins: the record spans little of a
+                // decade after the step, as when the clock started long
+                // before it.
+                if binned.response_samples >= 10 * MIN_BINS
+                    && binned.first_time_s > 0.0
+                    && binned.last_time_s < 10.0 * binned.first_time_s
+                {
+                    format!(
+                        " (the first sample after the step is at {} s and the last at {} s: if the \
+                         logger's clock did not start at the step, give the step's time on that \
+                         clock with --step-time)",
+                        binned.first_time_s, binned.last_time_s
+                    )
+                } else {
+                    String::new()
+                }
             ),
         ));
     }

@@ -142,6 +142,15 @@ impl OutputSet {
     /// tests can make a write fail part-way.
     fn commit_with(self, write: impl Fn(&Path, &[u8]) -> io::Result<()>) -> Result<Vec<PathBuf>> {
         let dir = self.dir;
+        if fs::metadata(&dir).is_ok_and(|m| !m.is_dir()) {
+            return Err(Error::Io {
+                path: dir.clone(),
+                source: io::Error::new(
+                    io::ErrorKind::AlreadyExists,
+                    "is a file, not a folder (choose another output folder)",
+                ),
+            });
+        }
         fs::create_dir_all(&dir).map_err(|source| Error::Io {
             path: dir.clone(),
             source,

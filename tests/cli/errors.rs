@@ -167,3 +167,61 @@ fn failed_run_keeps_previous_results() {
         "no temporaries left: {names:?}"
     );
 }
+
+/// A 100 000-character field is quoted by its head and length, not echoed.
+#[test]
+fn a_huge_field_is_quoted_short() {
+    let long = "x".repeat(100_000);
+    let text = format!("{HEAD}1,{long},-1\n{ROWS}");
+    let run = expect_error(&text, "bad.csv:2:");
+    assert!(
+        run.stderr.contains("(100000 characters)"),
+        "{}",
+        run.explain()
+    );
+    assert!(
+        run.stderr.len() < 400,
+        "stderr holds {} bytes",
+        run.stderr.len()
+    );
+}
+
+/// `--out` naming a file says so, instead of "File exists (os error 17)".
+#[test]
+fn output_folder_that_is_a_file() {
+    let dir = tempdir();
+    std::fs::write(dir.path().join("ok.csv"), format!("{HEAD}{ROWS}")).unwrap();
+    std::fs::write(dir.path().join("taken"), "a file").unwrap();
+    let run = taumap(
+        dir.path(),
+        &["invert", "ok.csv", "--out", "taken", "--no-plots"],
+    );
+    assert_eq!(run.code, 2, "{}", run.explain());
+    assert!(
+        run.stderr.contains("taken: is a file, not a folder"),
+        "{}",
+        run.explain()
+    );
+    assert_eq!(
+        std::fs::read_to_string(dir.path().join("taken")).unwrap(),
+        "a file"
+    );
+}
+
+/// A logger clock that did not start at the step: the error points at
+/// --step-time.
+#[test]
+fn late_clock_suggests_step_time() {
+    let dir = tempdir();
+    let mut text = String::from("time_s,voltage_v\n");
+    for k in 0..2000 {
+        text.push_str(&format!("{:.3},{}\n", 100.0 + 0.01 * k as f64, 1.0));
+    }
+    std::fs::write(dir.path().join("clock.csv"), text).unwrap();
+    let run = taumap(
+        dir.path(),
+        &["transient", "clock.csv", "--current-step-a", "0.1"],
+    );
+    assert_clean_failure(&run, "clock.csv:1:", dir.path(), "clock-taumap");
+    assert!(run.stderr.contains("--step-time"), "{}", run.explain());
+}
