@@ -334,7 +334,6 @@ impl Plan {
         &self,
         problem: &Tikhonov,
         dropped: &[usize],
-        cv_split: Option<(&[usize], &[usize])>,
         warm: Option<&WarmStart>,
     ) -> Solved {
         let keep = self.kept(dropped);
@@ -348,7 +347,7 @@ impl Plan {
                     .collect()
             })
             .unwrap_or_default();
-        let split = cv_split.unwrap_or((&self.cv_split.0, &self.cv_split.1));
+        let split = (self.cv_split.0.as_slice(), self.cv_split.1.as_slice());
         let Selected {
             solution,
             selection,

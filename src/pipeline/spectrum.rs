@@ -360,7 +360,7 @@ impl SpectrumPlan {
         warm: Option<&WarmStart>,
     ) -> Result<SpectrumInversion> {
         let d = self.scale(z_re_ohm, z_im_ohm)?;
-        let solved = self.plan.solve(&d.problem, &d.dropped, None, warm);
+        let solved = self.plan.solve(&d.problem, &d.dropped, warm);
         let m = self.frequency_hz.len();
         let n = self.plan.n_gamma();
         let x = &solved.x;

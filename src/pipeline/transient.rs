@@ -514,7 +514,7 @@ impl TransientPlan {
         warm: Option<&WarmStart>,
     ) -> Result<TransientInversion> {
         let d = self.scale(values, pre_step_mean)?;
-        let solved = self.plan.solve(&d.problem, &[], None, warm);
+        let solved = self.plan.solve(&d.problem, &[], warm);
         let m = self.time_s.len();
         let n = self.plan.n_gamma();
         let s = d.y_scale;
