@@ -9,6 +9,8 @@ mod developers;
 mod errors;
 #[path = "cli/invert.rs"]
 mod invert;
+#[path = "cli/plots.rs"]
+mod plots;
 #[path = "cli/readme.rs"]
 mod readme;
 #[path = "cli/transient.rs"]
