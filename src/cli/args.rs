@@ -92,10 +92,39 @@ pub struct SolveArgs {
     pub no_plots: bool,
 }
 
+/// How the input's columns are found, when their headings do not say.
+#[derive(Args, Debug, Clone, Default)]
+pub struct ColumnArgs {
+    /// Which column holds a quantity: ROLE=HEADING or ROLE=#N (counted from
+    /// 1); repeatable. Roles: frequency, real, imag, neg-imag, modulus,
+    /// phase, neg-phase (spectra); time, voltage, current (transients).
+    #[arg(long = "column", value_name = "ROLE=HEADING")]
+    pub column: Vec<String>,
+    /// The unit of a role's column, overriding its heading: ROLE=UNIT, e.g.
+    /// frequency=kHz, real=mOhm, time=min; repeatable.
+    #[arg(long = "unit", value_name = "ROLE=UNIT")]
+    pub unit: Vec<String>,
+}
+
+impl ColumnArgs {
+    /// The choices as the readers take them.
+    pub fn map(&self) -> taumap::Result<taumap::io::columns::ColumnMap> {
+        let mut map = taumap::io::columns::ColumnMap::default();
+        for c in &self.column {
+            map.add_column(c)?;
+        }
+        for u in &self.unit {
+            map.add_unit(u)?;
+        }
+        Ok(map)
+    }
+}
+
 /// `taumap invert`.
 #[derive(Args, Debug)]
 pub struct InvertArgs {
-    /// Input spectrum: frequency_hz,z_re_ohm,z_im_ohm (see README for accepted variants).
+    /// Input spectrum: frequency_hz,z_re_ohm,z_im_ohm (see README for accepted
+    /// variants); `-` reads standard input (then --out is needed).
     #[arg(value_name = "IN.csv")]
     pub input: PathBuf,
     /// Output directory (created if missing); default <stem>-taumap/ beside the input.
@@ -110,6 +139,9 @@ pub struct InvertArgs {
     /// Residual weighting.
     #[arg(long, value_enum, default_value = "modulus")]
     pub weighting: WeightingArg,
+    /// Column choices.
+    #[command(flatten)]
+    pub columns: ColumnArgs,
     /// Shared solver options.
     #[command(flatten)]
     pub solve: SolveArgs,
@@ -124,7 +156,8 @@ pub struct InvertArgs {
 ))]
 pub struct TransientArgs {
     /// Input transient: time_s,voltage_v (current step, relaxation) or
-    /// time_s,current_a (voltage step); see README for accepted variants.
+    /// time_s,current_a (voltage step); see README for accepted variants;
+    /// `-` reads standard input (then --out is needed).
     #[arg(value_name = "IN.csv")]
     pub input: PathBuf,
     /// Output directory (created if missing); default <stem>-taumap/ beside the input.
@@ -159,6 +192,9 @@ pub struct TransientArgs {
         allow_negative_numbers = true
     )]
     pub step_time: f64,
+    /// Column choices.
+    #[command(flatten)]
+    pub columns: ColumnArgs,
     /// Shared solver options.
     #[command(flatten)]
     pub solve: SolveArgs,

@@ -2,10 +2,10 @@
 
 use super::args::{BasisArg, InductanceArg, InvertArgs, SolveArgs, WeightingArg};
 use super::output::{FORMATS, add_distribution, fixed6, lambda_phrase, output_set, print_warnings};
-use anyhow::{Context, Result, bail};
+use anyhow::{Result, bail};
 use std::path::{Path, PathBuf};
 use taumap::io::Spectrum;
-use taumap::io::spectrum::read_spectrum_with_layout;
+use taumap::io::spectrum::{SpectrumLayout, read_spectrum_with};
 use taumap::kernel::BasisKind;
 use taumap::pipeline::{
     DrtOptions, InductanceMode, InvertParams, LambdaChoice, LambdaRule, SpectrumInversion,
@@ -56,6 +56,52 @@ pub fn default_out_dir(input: &Path) -> PathBuf {
         .join(format!("{stem}-taumap"))
 }
 
+/// Names the input file in an error about its data, but not in an error
+/// about a setting (`--per-decade 1000`), where the file is not at fault.
+pub fn in_file<T>(result: taumap::Result<T>, input: &Path) -> Result<T> {
+    result.map_err(|e| match e {
+        taumap::Error::Param { .. } => anyhow::Error::new(e),
+        e => anyhow::Error::new(e).context(input.display().to_string()),
+    })
+}
+
+/// The output directory: `--out`, else [`default_out_dir`]; standard
+/// input (`-`) has no place of its own, so it needs `--out`.
+pub fn out_dir(input: &Path, out: Option<&Path>) -> Result<PathBuf> {
+    match out {
+        Some(dir) => Ok(dir.to_path_buf()),
+        None if input == Path::new("-") => {
+            bail!("reading standard input (\"-\") needs an output directory: give --out DIR")
+        }
+        None => Ok(default_out_dir(input)),
+    }
+}
+
+/// Says on stderr how the reader took a file whose layout is not the
+/// canonical one: skipped free text, converted units, its encoding.
+fn report_layout(input: &Path, layout: &SpectrumLayout) {
+    let name = if input == Path::new("-") {
+        "<stdin>".to_string()
+    } else {
+        input.display().to_string()
+    };
+    if let Some((first, last)) = layout.preamble {
+        eprintln!(
+            "note: {name}: lines {first}-{last} are free text above the header (line {}); skipped",
+            layout.header_line
+        );
+    }
+    if layout.encoding != taumap::io::table::TextEncoding::Utf8 {
+        eprintln!("note: {name}: read as {}", layout.encoding.name());
+    }
+    let units = ["Hz", "ohm", if layout.polar { "degrees" } else { "ohm" }];
+    for ((col, factor), unit) in layout.column_names.iter().zip(layout.factors).zip(units) {
+        if factor != 1.0 {
+            eprintln!("note: {name}: column \"{col}\" converted to {unit} (x {factor:e})");
+        }
+    }
+}
+
 /// Runs the subcommand.
 pub fn run(a: &InvertArgs) -> Result<()> {
     let params = InvertParams {
@@ -71,7 +117,9 @@ pub fn run(a: &InvertArgs) -> Result<()> {
         },
         series_capacitance: a.series_capacitance,
     };
-    let (spectrum, layout) = read_spectrum_with_layout(&a.input)?;
+    let out = out_dir(&a.input, a.out.as_deref())?;
+    let (spectrum, layout) = read_spectrum_with(&a.input, &a.columns.map()?)?;
+    report_layout(&a.input, &layout);
     let reader_warnings: Vec<String> = layout
         .imag_mostly_positive
         .then(|| {
@@ -83,7 +131,6 @@ pub fn run(a: &InvertArgs) -> Result<()> {
     for w in &reader_warnings {
         eprintln!("warning: {}: {w}", a.input.display());
     }
-    let out = a.out.clone().unwrap_or_else(|| default_out_dir(&a.input));
     let (summary, written) = invert_into(
         &a.input,
         &spectrum,
@@ -108,7 +155,7 @@ pub fn invert_into(
     reader_warnings: Vec<String>,
 ) -> Result<(Summary, Vec<PathBuf>)> {
     // Whole-spectrum problems name the file they came from.
-    let mut inv = invert(spectrum, params).with_context(|| input.display().to_string())?;
+    let mut inv = in_file(invert(spectrum, params), input)?;
     print_warnings(input, &inv.drt);
     inv.drt.warnings.splice(0..0, reader_warnings);
     let summary = Summary::new(&input.display().to_string(), spectrum, params, &inv);

@@ -1,11 +1,11 @@
 //! `taumap transient`: step transient in, distribution, fit, summary and plots out.
 
 use super::args::TransientArgs;
-use super::invert::{default_out_dir, drt_options_from};
+use super::invert::{drt_options_from, in_file, out_dir};
 use super::output::{FORMATS, add_distribution, fixed6, lambda_phrase, output_set, print_warnings};
-use anyhow::{Context, Result};
+use anyhow::Result;
 use std::path::{Path, PathBuf};
-use taumap::io::transient::read_transient;
+use taumap::io::transient::read_transient_with;
 use taumap::pipeline::binning::{BinOptions, BinnedTransient};
 use taumap::pipeline::{
     DistributionUnit, StepKind, TRANSIENT_PER_DECADE, TransientParams, invert_transient,
@@ -37,8 +37,8 @@ pub fn run(a: &TransientArgs) -> Result<()> {
         fit_start_s: a.fit_start,
         step_time_s: a.step_time,
     };
-    let record = read_transient(&a.input, params.step.quantity(), &bins)?;
-    let out = a.out.clone().unwrap_or_else(|| default_out_dir(&a.input));
+    let out = out_dir(&a.input, a.out.as_deref())?;
+    let record = read_transient_with(&a.input, params.step.quantity(), &bins, &a.columns.map()?)?;
     let (summary, written) =
         transient_into(&a.input, &record, &bins, &params, &out, !a.solve.no_plots)?;
     report_run(&summary, &out, &written, a.solve.json)
@@ -55,7 +55,7 @@ pub fn transient_into(
     plots: bool,
 ) -> Result<(TransientSummary, Vec<PathBuf>)> {
     // Whole-record problems name the file they came from.
-    let inv = invert_transient(record, params).with_context(|| input.display().to_string())?;
+    let inv = in_file(invert_transient(record, params), input)?;
     print_warnings(input, &inv.drt);
     let summary = TransientSummary::new(&input.display().to_string(), record, bins, params, &inv);
     let mut set = output_set(out);

@@ -17,10 +17,26 @@
 //! | modulus (Ω) | `modulus`, `mod`, `\|z\|`, `z_mod_ohm`, `zmod`, `magnitude`, `z_abs_ohm` |
 //! | phase (degrees) | `phase`, `phase_deg`, `phi`, `theta`, `z_phase_deg` |
 //!
-//! A unit written after the name (`Freq (Hz)`, `Z' [Ohm]`, `Phase/deg`)
-//! must be Hz, ohm or degrees; other units are rejected rather than guessed.
-//! Real and imaginary columns take precedence over modulus and phase; a
-//! plain imaginary column takes precedence over a negated one.
+//! | negated phase (degrees) | `-phase`, `-phase_deg`, `-phi`, `-φ`, `-theta`, `-z_phase_deg`, `neg_phase`, … |
+//!
+//! A unit written after the name (`Freq (Hz)`, `Z' [Ohm]`, `Phase/deg`,
+//! the ISO 80000-1 quantity/unit heading `f/kHz`) is read with its SI
+//! prefix: Hz, mHz, kHz, MHz; ohm (or Ω) with µ, m, k, M or G; degrees
+//! (`deg`, `°`) or radians (`rad`). The case rule that tells `m` from `M`
+//! is in [`crate::io::columns`]. Other units are rejected rather than
+//! guessed. Real and imaginary columns take precedence over modulus and
+//! phase; a plain imaginary column takes precedence over a negated one.
+//!
+//! A user's choice of columns and units ([`ColumnMap`], roles [`ROLES`])
+//! overrides recognition by name, and settles every ambiguity.
+//!
+//! # Layout beyond the table module
+//! - The header is the first line that names a frequency column and an
+//!   impedance column; free text above it (an instrument's settings, not
+//!   marked with `#`) is skipped and reported in
+//!   [`SpectrumLayout::preamble`].
+//! - At most [`MAX_POINTS`] points; the rows are streamed, so memory does
+//!   not grow with the size of the file.
 //!
 //! # Sign convention
 //!
@@ -34,16 +50,46 @@ use std::io::{BufRead, BufReader};
 use std::path::Path;
 
 use crate::error::{Error, Result};
-use crate::io::table::{Table, read_table, split_unit};
+use crate::io::columns::{BaseUnit, ColumnMap, UnitReading, unit_examples, unit_factor};
+use crate::io::table::{TableHead, TableReader, TextEncoding, excerpt, split_unit};
 
 /// Minimum number of points a spectrum file must hold.
 pub const MIN_POINTS: usize = 5;
+
+/// Maximum number of points a spectrum file may hold. A measured spectrum
+/// has tens to a few thousand frequencies; the inversion's cost grows with
+/// the square of the count, so a larger file is a mistake (a transient, a
+/// concatenation) and is refused at its first surplus row.
+pub const MAX_POINTS: usize = 100_000;
 
 /// The header written by taumap and shown in messages as the model to follow.
 pub const CANONICAL_HEADER: &str = "frequency_hz,z_re_ohm,z_im_ohm";
 
 /// Example header for modulus-and-phase data, shown in messages.
 const POLAR_HEADER: &str = "frequency_hz,z_mod_ohm,z_phase_deg";
+
+/// The roles of spectrum columns, as `--column ROLE=…` and `--unit ROLE=…`
+/// name them.
+pub const ROLES: &[&str] = &[
+    "frequency",
+    "real",
+    "imag",
+    "neg-imag",
+    "modulus",
+    "phase",
+    "neg-phase",
+];
+
+/// The roles in words, for messages; same order as [`ROLES`].
+const ROLE_WORDS: [&str; 7] = [
+    "frequency",
+    "real part",
+    "imaginary part",
+    "negated imaginary part",
+    "modulus",
+    "phase",
+    "negated phase",
+];
 
 const FREQUENCY_NAMES: &[&str] = &["frequency_hz", "frequency", "freq", "f", "freq_hz", "f_hz"];
 const REAL_NAMES: &[&str] = &[
@@ -75,11 +121,81 @@ const MODULUS_NAMES: &[&str] = &[
     "magnitude",
     "z_abs_ohm",
 ];
-const PHASE_NAMES: &[&str] = &["phase", "phase_deg", "phi", "theta", "z_phase_deg"];
+const PHASE_NAMES: &[&str] = &[
+    "phase",
+    "phase_deg",
+    "phi",
+    "theta",
+    "z_phase_deg",
+    "z_phase",
+    "phase_angle",
+    "\u{3c6}",
+    "\u{3d5}",
+    "\u{3b8}",
+];
+const NEG_PHASE_NAMES: &[&str] = &[
+    "-phase",
+    "-phase_deg",
+    "-phi",
+    "-theta",
+    "-z_phase_deg",
+    "-z_phase",
+    "-phase_angle",
+    "-\u{3c6}",
+    "-\u{3d5}",
+    "-\u{3b8}",
+    "neg_phase",
+    "neg_phase_deg",
+    "minus_phase",
+];
 
-const HZ_UNITS: &[&str] = &["hz"];
-const OHM_UNITS: &[&str] = &["ohm", "ohms", "\u{3c9}", "\u{3a9}", "\u{2126}"];
-const DEGREE_UNITS: &[&str] = &["deg", "degree", "degrees", "\u{b0}"];
+/// Heading names of each role; same order as [`ROLES`].
+const ROLE_NAMES: [&[&str]; 7] = [
+    FREQUENCY_NAMES,
+    REAL_NAMES,
+    IMAG_NAMES,
+    NEG_IMAG_NAMES,
+    MODULUS_NAMES,
+    PHASE_NAMES,
+    NEG_PHASE_NAMES,
+];
+
+const HZ: BaseUnit = BaseUnit {
+    spellings: &["hz"],
+    usual: &["Hz"],
+    factor: 1.0,
+    prefixes: "mkM",
+};
+/// Ohm: the lower case of both omega signs (U+03A9, U+2126) is U+03C9.
+const OHM: BaseUnit = BaseUnit {
+    spellings: &["ohm", "ohms", "\u{3c9}"],
+    usual: &["ohm", "Ohm", "ohms", "Ohms", "\u{3a9}", "\u{2126}"],
+    factor: 1.0,
+    prefixes: "umkMG",
+};
+const DEGREE: BaseUnit = BaseUnit {
+    spellings: &["deg", "degree", "degrees", "\u{b0}"],
+    usual: &["deg"],
+    factor: 1.0,
+    prefixes: "",
+};
+const RADIAN: BaseUnit = BaseUnit {
+    spellings: &["rad", "radian", "radians"],
+    usual: &["rad"],
+    factor: 180.0 / std::f64::consts::PI,
+    prefixes: "",
+};
+
+/// Units of each role; same order as [`ROLES`].
+const ROLE_UNITS: [&[BaseUnit]; 7] = [
+    &[HZ],
+    &[OHM],
+    &[OHM],
+    &[OHM],
+    &[OHM],
+    &[DEGREE, RADIAN],
+    &[DEGREE, RADIAN],
+];
 
 /// An impedance spectrum, sorted by ascending frequency.
 ///
@@ -185,7 +301,7 @@ impl Spectrum {
 }
 
 /// How a spectrum file was interpreted, for reporting.
-#[derive(Debug, Clone, PartialEq, Eq)]
+#[derive(Debug, Clone, PartialEq)]
 pub struct SpectrumLayout {
     /// Field delimiter detected from the header line.
     pub delimiter: char,
@@ -206,6 +322,15 @@ pub struct SpectrumLayout {
     pub imag_mostly_positive: bool,
     /// Header names of the columns that were not used, in file order.
     pub ignored_columns: Vec<String>,
+    /// The phase column held −φ and was negated on reading.
+    pub negated_phase: bool,
+    /// Factors from the units of the columns used to Hz, Ω and Ω (or
+    /// degrees), in the order of [`Self::columns`]: `1e3` for `kHz`.
+    pub factors: [f64; 3],
+    /// First and last line of free text skipped above the header.
+    pub preamble: Option<(usize, usize)>,
+    /// The text encoding the file was read in.
+    pub encoding: TextEncoding,
 }
 
 /// Opens and reads a spectrum file; see [`parse_spectrum`].
@@ -218,20 +343,31 @@ pub fn read_spectrum(path: &Path) -> Result<Spectrum> {
 /// Opens and reads a spectrum file, also returning how it was interpreted;
 /// see [`parse_spectrum_with_layout`].
 pub fn read_spectrum_with_layout(path: &Path) -> Result<(Spectrum, SpectrumLayout)> {
+    read_spectrum_with(path, &ColumnMap::default())
+}
+
+/// Opens and reads a spectrum file with the user's choice of columns and
+/// units; see [`parse_spectrum_with`]. The path `-` reads standard input.
+pub fn read_spectrum_with(path: &Path, map: &ColumnMap) -> Result<(Spectrum, SpectrumLayout)> {
+    if path == Path::new("-") {
+        let stdin = std::io::stdin();
+        return parse_spectrum_with(stdin.lock(), Path::new("<stdin>"), map);
+    }
     let file = File::open(path).map_err(|source| Error::Io {
         path: path.to_path_buf(),
         source,
     })?;
-    parse_spectrum_with_layout(BufReader::new(file), path)
+    parse_spectrum_with(BufReader::new(file), path, map)
 }
 
 /// Parses a spectrum from `reader`; `path` only labels errors.
 ///
 /// Fails with [`Error::Parse`] at the offending line for unusable text,
 /// missing or ambiguous columns, unsupported units, non-numeric or
-/// non-finite values, frequencies `<= 0`, duplicate frequencies and a
-/// negated-imaginary column that already carries the physical sign; with
-/// [`Error::TooFewPoints`] below [`MIN_POINTS`] points.
+/// non-finite values, frequencies `<= 0`, duplicate frequencies, more than
+/// [`MAX_POINTS`] points and a negated-imaginary column that already
+/// carries the physical sign; with [`Error::TooFewPoints`] below
+/// [`MIN_POINTS`] points.
 pub fn parse_spectrum<R: BufRead>(reader: R, path: &Path) -> Result<Spectrum> {
     parse_spectrum_with_layout(reader, path).map(|(spectrum, _)| spectrum)
 }
@@ -241,43 +377,86 @@ pub fn parse_spectrum_with_layout<R: BufRead>(
     reader: R,
     path: &Path,
 ) -> Result<(Spectrum, SpectrumLayout)> {
-    let table = read_table(reader, path, CANONICAL_HEADER)?;
-    let choice = choose_columns(&table)?;
-    let [f_col, a_col, b_col] = choice.columns;
+    parse_spectrum_with(reader, path, &ColumnMap::default())
+}
 
-    let mut points = Vec::with_capacity(table.rows.len());
-    for row in &table.rows {
-        let f = table.number(row, f_col)?;
+/// Like [`parse_spectrum_with_layout`], with the user's choice of columns
+/// and units (roles [`ROLES`]) taking precedence over recognition by name.
+///
+/// The rows are read one at a time: memory follows the number of points
+/// (at most [`MAX_POINTS`]), not the size of the file.
+pub fn parse_spectrum_with<R: BufRead>(
+    reader: R,
+    path: &Path,
+    map: &ColumnMap,
+) -> Result<(Spectrum, SpectrumLayout)> {
+    map.check_roles(ROLES)?;
+    let found = TableReader::find_header(reader, path, CANONICAL_HEADER, |head| {
+        names_a_spectrum(head, map)
+    })?;
+    let mut table = match found {
+        Ok(table) => table,
+        Err(no) => {
+            // One line examined: explain what that line lacks; several: the
+            // file has free text but no recognisable header.
+            if no.single_candidate() {
+                choose_columns(&no.first, map)?;
+            }
+            return Err(no.error("frequency and impedance columns", CANONICAL_HEADER));
+        }
+    };
+    let choice = choose_columns(&table, map)?;
+    let [f_col, a_col, b_col] = choice.columns;
+    let [f_scale, a_scale, b_scale] = choice.factors;
+
+    let mut points = Vec::new();
+    while let Some(row) = table.next_row()? {
+        if points.len() == MAX_POINTS {
+            return Err(table.error(
+                row.line,
+                format!(
+                    "more than {MAX_POINTS} points: a spectrum is read whole, and taumap \
+                     reads at most {MAX_POINTS} frequencies (thin the file or split it)"
+                ),
+            ));
+        }
+        let f = table.number(&row, f_col)? * f_scale;
         if f <= 0.0 {
             return Err(table.error(
                 row.line,
                 format!(
                     "frequency must be positive, found {} (column {})",
-                    row.field(f_col),
+                    excerpt(row.field(f_col)),
                     table.column_name(f_col)
                 ),
             ));
         }
-        let a = table.number(row, a_col)?;
-        let b = table.number(row, b_col)?;
+        let a = table.number(&row, a_col)? * a_scale;
+        let b = table.number(&row, b_col)? * b_scale;
         let (re, im) = if choice.polar {
             if a < 0.0 {
                 return Err(table.error(
                     row.line,
                     format!(
                         "modulus must not be negative, found {} (column {})",
-                        row.field(a_col),
+                        excerpt(row.field(a_col)),
                         table.column_name(a_col)
                     ),
                 ));
             }
-            let phi = b.to_radians();
+            let phi = if choice.negated { -b } else { b }.to_radians();
             (a * phi.cos(), a * phi.sin())
         } else if choice.negated {
             (a, -b)
         } else {
             (a, b)
         };
+        if !(f.is_finite() && re.is_finite() && im.is_finite()) {
+            return Err(table.error(
+                row.line,
+                "value out of the range of double precision after unit conversion",
+            ));
+        }
         points.push(Point {
             f,
             re,
@@ -306,12 +485,17 @@ pub fn parse_spectrum_with_layout<R: BufRead>(
     let imag_mostly_positive = 2 * n_positive > n;
     if choice.negated && imag_mostly_positive {
         let name = table.column_name(b_col);
+        let (what, plain) = if choice.polar {
+            ("negated phase", "z_phase_deg")
+        } else {
+            ("negated imaginary part", "z_im_ohm")
+        };
         return Err(table.error(
             table.header_line,
             format!(
-                "column \"{name}\" should hold the negated imaginary part, but {n_positive} \
+                "column \"{name}\" should hold the {what}, but {n_positive} \
                  of {n} values are negative, so it seems to carry the physical sign already \
-                 (if so, rename the column to \"z_im_ohm\")"
+                 (if so, rename the column to \"{plain}\")"
             ),
         ));
     }
@@ -321,7 +505,7 @@ pub fn parse_spectrum_with_layout<R: BufRead>(
         header_line: table.header_line,
         columns: choice.columns,
         column_names: choice.columns.map(|c| table.column_name(c).to_string()),
-        negated_imag: choice.negated,
+        negated_imag: choice.negated && !choice.polar,
         polar: choice.polar,
         imag_mostly_positive,
         ignored_columns: table
@@ -331,6 +515,10 @@ pub fn parse_spectrum_with_layout<R: BufRead>(
             .filter(|(i, _)| !choice.columns.contains(i))
             .map(|(_, name)| name.clone())
             .collect(),
+        negated_phase: choice.negated && choice.polar,
+        factors: choice.factors,
+        preamble: table.preamble,
+        encoding: table.encoding(),
     };
     Ok((Spectrum::from_sorted(&points), layout))
 }
@@ -362,126 +550,146 @@ fn first_duplicate(points: &[Point]) -> Option<(Point, Point)> {
 /// Which fields of a table hold the spectrum.
 struct Choice {
     columns: [usize; 3],
+    /// The third column holds −Z'' (rectangular) or −φ (polar).
     negated: bool,
     polar: bool,
+    /// Factors from each column's unit to Hz, Ω, Ω (or degrees).
+    factors: [f64; 3],
 }
 
-fn choose_columns(table: &Table) -> Result<Choice> {
+/// The columns of each role in `head`: the user's choice, or the columns
+/// whose heading names the role (excluding columns chosen for other roles).
+fn role_columns(head: &TableHead, map: &ColumnMap) -> Result<[Vec<usize>; 7]> {
+    let mut chosen = [None; 7];
+    for (k, role) in ROLES.iter().enumerate() {
+        chosen[k] = map.column(head, role)?;
+    }
+    let taken: Vec<usize> = chosen.iter().flatten().copied().collect();
+    let mut out: [Vec<usize>; 7] = Default::default();
+    for (k, names) in ROLE_NAMES.iter().enumerate() {
+        out[k] = match chosen[k] {
+            Some(c) => vec![c],
+            None => head
+                .find_columns(names)
+                .into_iter()
+                .filter(|c| !taken.contains(c))
+                .collect(),
+        };
+    }
+    Ok(out)
+}
+
+/// Whether `head` names a frequency column and at least one impedance
+/// column: the test that finds the header below a block of free text.
+fn names_a_spectrum(head: &TableHead, map: &ColumnMap) -> bool {
+    match role_columns(head, map) {
+        Ok(cols) => !cols[0].is_empty() && cols[1..].iter().any(|c| !c.is_empty()),
+        Err(_) => false,
+    }
+}
+
+fn choose_columns(table: &TableHead, map: &ColumnMap) -> Result<Choice> {
     let header_err = |msg: String| table.error(table.header_line, msg);
-    let looks_numeric = table
-        .header
-        .iter()
-        .all(|h| !h.trim().is_empty() && h.trim().parse::<f64>().is_ok());
+    let looks_numeric = table.header.iter().all(|h| {
+        !h.trim().is_empty()
+            && crate::io::table::parse_finite(table.path.as_path(), 0, h, "", table.decimal_comma())
+                .is_ok()
+    });
     if looks_numeric {
         return Err(header_err(format!(
             "\"{}\" looks like data, not a header (add a header line such as \"{CANONICAL_HEADER}\")",
-            crate::io::table::excerpt(&table.header_text)
+            excerpt(&table.header_text)
         )));
     }
-    let missing = |what: &str, example: &str| {
+    let missing = |what: &str, role: &str, example: &str| {
         let hint = if table.header.len() == 1 {
             ", with columns separated by commas, semicolons or tabs"
         } else {
             ""
         };
         header_err(format!(
-            "no {what} column found in header \"{}\" (expected e.g. \"{example}\"{hint})",
-            crate::io::table::excerpt(&table.header_text)
+            "no {what} column found in header \"{}\" (expected e.g. \"{example}\"{hint}; \
+             or choose it with --column {role}=HEADING)",
+            excerpt(&table.header_text)
         ))
     };
 
-    let freq = table.find_columns(FREQUENCY_NAMES);
-    let re = table.find_columns(REAL_NAMES);
-    let im = table.find_columns(IMAG_NAMES);
-    let neg = table.find_columns(NEG_IMAG_NAMES);
-    let modulus = table.find_columns(MODULUS_NAMES);
-    let phase = table.find_columns(PHASE_NAMES);
+    let [freq, re, im, neg, modulus, phase, neg_phase] = role_columns(table, map)?;
 
     if freq.is_empty() {
-        return Err(missing("frequency", CANONICAL_HEADER));
+        return Err(missing("frequency", "frequency", CANONICAL_HEADER));
     }
     let (lists, negated, polar) = if !re.is_empty() && !im.is_empty() {
-        (
-            [
-                (&freq, "frequency"),
-                (&re, "real part"),
-                (&im, "imaginary part"),
-            ],
-            false,
-            false,
-        )
+        ([(&freq, 0), (&re, 1), (&im, 2)], false, false)
     } else if !re.is_empty() && !neg.is_empty() {
-        (
-            [
-                (&freq, "frequency"),
-                (&re, "real part"),
-                (&neg, "negated imaginary part"),
-            ],
-            true,
-            false,
-        )
+        ([(&freq, 0), (&re, 1), (&neg, 3)], true, false)
     } else if !modulus.is_empty() && !phase.is_empty() {
-        (
-            [
-                (&freq, "frequency"),
-                (&modulus, "modulus"),
-                (&phase, "phase"),
-            ],
-            false,
-            true,
-        )
+        ([(&freq, 0), (&modulus, 4), (&phase, 5)], false, true)
+    } else if !modulus.is_empty() && !neg_phase.is_empty() {
+        ([(&freq, 0), (&modulus, 4), (&neg_phase, 6)], true, true)
     } else if !re.is_empty() {
-        return Err(missing("imaginary-part", CANONICAL_HEADER));
+        return Err(missing("imaginary-part", "imag", CANONICAL_HEADER));
     } else if !modulus.is_empty() {
-        return Err(missing("phase", POLAR_HEADER));
-    } else if !phase.is_empty() {
-        return Err(missing("modulus", POLAR_HEADER));
+        return Err(missing("phase", "phase", POLAR_HEADER));
+    } else if !phase.is_empty() || !neg_phase.is_empty() {
+        return Err(missing("modulus", "modulus", POLAR_HEADER));
     } else {
-        return Err(missing("real-part", CANONICAL_HEADER));
+        return Err(missing("real-part", "real", CANONICAL_HEADER));
     };
 
     let mut columns = [0; 3];
-    for (slot, (list, what)) in columns.iter_mut().zip(lists) {
-        match list[..] {
-            [only] => *slot = only,
+    let mut factors = [1.0; 3];
+    for (k, (list, role)) in lists.into_iter().enumerate() {
+        let what = ROLE_WORDS[role];
+        let col = match list[..] {
+            [only] => only,
             [first, second, ..] => {
                 return Err(header_err(format!(
-                    "columns \"{}\" and \"{}\" both name the {what} (remove or rename one of them)",
+                    "columns \"{}\" and \"{}\" both name the {what} (remove or rename one of \
+                     them, or choose one with --column {}=HEADING)",
                     table.column_name(first),
-                    table.column_name(second)
+                    table.column_name(second),
+                    ROLES[role]
                 )));
             }
             [] => unreachable!("the layout is chosen only from non-empty column lists"),
-        }
-    }
-
-    let impedance_units = if polar {
-        [OHM_UNITS, DEGREE_UNITS]
-    } else {
-        [OHM_UNITS; 2]
-    };
-    let units = [HZ_UNITS, impedance_units[0], impedance_units[1]];
-    for (&col, allowed) in columns.iter().zip(units) {
+        };
+        columns[k] = col;
         let name = table.column_name(col);
-        if let (_, Some(unit)) = split_unit(name) {
-            if !allowed.contains(&unit.to_lowercase().as_str()) {
-                let fix = if allowed == HZ_UNITS {
-                    "give frequencies in Hz"
-                } else if allowed == DEGREE_UNITS {
-                    "give phases in degrees"
-                } else {
-                    "give impedances in ohm"
-                };
+        let given = map.unit(ROLES[role]);
+        let unit = given.map(str::to_string).or_else(|| split_unit(name).1);
+        let Some(unit) = unit else { continue };
+        let bases = ROLE_UNITS[role];
+        let source = if given.is_some() {
+            format!("--unit {}", ROLES[role])
+        } else {
+            format!("column \"{name}\"")
+        };
+        factors[k] = match unit_factor(&unit, bases) {
+            UnitReading::Factor(f) => f,
+            UnitReading::Ambiguous => {
                 return Err(header_err(format!(
-                    "unsupported unit \"{unit}\" in column \"{name}\" ({fix})"
+                    "unit \"{unit}\" in {source} is ambiguous: milli or mega? \
+                     (write the prefix as m or M with the unit in its usual case, \
+                     or give --unit {}=UNIT)",
+                    ROLES[role]
                 )));
             }
-        }
+            UnitReading::Unknown => {
+                return Err(header_err(format!(
+                    "unsupported unit \"{unit}\" in {source} (use one of {}; \
+                     or give --unit {}=UNIT)",
+                    unit_examples(bases),
+                    ROLES[role]
+                )));
+            }
+        };
     }
     Ok(Choice {
         columns,
         negated,
         polar,
+        factors,
     })
 }
 
@@ -539,6 +747,10 @@ mod tests {
                 polar: false,
                 imag_mostly_positive: false,
                 ignored_columns: vec![],
+                negated_phase: false,
+                factors: [1.0; 3],
+                preamble: None,
+                encoding: TextEncoding::Utf8,
             }
         );
     }
@@ -646,33 +858,33 @@ mod tests {
         assert_eq!(
             err_text(b"freq,re\n1,2\n"),
             "cell_a.csv:1: no imaginary-part column found in header \"freq,re\" \
-             (expected e.g. \"frequency_hz,z_re_ohm,z_im_ohm\")"
+             (expected e.g. \"frequency_hz,z_re_ohm,z_im_ohm\"; or choose it with --column imag=HEADING)"
         );
         assert_eq!(
             err_text(b"# c\nhz,re,im\n"),
             "cell_a.csv:2: no frequency column found in header \"hz,re,im\" \
-             (expected e.g. \"frequency_hz,z_re_ohm,z_im_ohm\")"
+             (expected e.g. \"frequency_hz,z_re_ohm,z_im_ohm\"; or choose it with --column frequency=HEADING)"
         );
         assert_eq!(
             err_text(b"f,a,im\n"),
             "cell_a.csv:1: no real-part column found in header \"f,a,im\" \
-             (expected e.g. \"frequency_hz,z_re_ohm,z_im_ohm\")"
+             (expected e.g. \"frequency_hz,z_re_ohm,z_im_ohm\"; or choose it with --column real=HEADING)"
         );
         assert_eq!(
             err_text(b"f,|Z|\n"),
             "cell_a.csv:1: no phase column found in header \"f,|Z|\" \
-             (expected e.g. \"frequency_hz,z_mod_ohm,z_phase_deg\")"
+             (expected e.g. \"frequency_hz,z_mod_ohm,z_phase_deg\"; or choose it with --column phase=HEADING)"
         );
         assert_eq!(
             err_text(b"f;phase\n"),
             "cell_a.csv:1: no modulus column found in header \"f;phase\" \
-             (expected e.g. \"frequency_hz,z_mod_ohm,z_phase_deg\")"
+             (expected e.g. \"frequency_hz,z_mod_ohm,z_phase_deg\"; or choose it with --column modulus=HEADING)"
         );
         assert_eq!(
             err_text(b"frequency_hz z_re_ohm z_im_ohm\n"),
             "cell_a.csv:1: no frequency column found in header \"frequency_hz z_re_ohm z_im_ohm\" \
              (expected e.g. \"frequency_hz,z_re_ohm,z_im_ohm\", with columns separated by \
-             commas, semicolons or tabs)"
+             commas, semicolons or tabs; or choose it with --column frequency=HEADING)"
         );
         assert_eq!(
             err_text(b"1000,10,-5\n100,11,-6\n"),
@@ -686,22 +898,187 @@ mod tests {
         assert_eq!(
             err_text(b"f,re,im,freq\n"),
             "cell_a.csv:1: columns \"f\" and \"freq\" both name the frequency \
-             (remove or rename one of them)"
+             (remove or rename one of them, or choose one with --column frequency=HEADING)"
         );
         assert_eq!(
-            err_text(b"Freq (kHz),re,im\n"),
-            "cell_a.csv:1: unsupported unit \"kHz\" in column \"Freq (kHz)\" (give frequencies in Hz)"
+            err_text(b"Freq (GHz),re,im\n"),
+            "cell_a.csv:1: unsupported unit \"GHz\" in column \"Freq (GHz)\" \
+             (use one of Hz, mHz, kHz, MHz; or give --unit frequency=UNIT)"
         );
         assert_eq!(
-            err_text(b"f,Z' (kOhm),im\n"),
-            "cell_a.csv:1: unsupported unit \"kOhm\" in column \"Z' (kOhm)\" (give impedances in ohm)"
+            err_text(b"f,Z' (Ohm cm2),im\n"),
+            "cell_a.csv:1: unsupported unit \"Ohm cm2\" in column \"Z' (Ohm cm2)\" \
+             (use one of ohm, uohm, mohm, kohm, Mohm, Gohm; or give --unit real=UNIT)"
         );
         assert_eq!(
-            err_text(b"f,|Z|,phase (rad)\n"),
-            "cell_a.csv:1: unsupported unit \"rad\" in column \"phase (rad)\" (give phases in degrees)"
+            err_text(b"f (MHZ),re,im\n"),
+            "cell_a.csv:1: unit \"MHZ\" in column \"f (MHZ)\" is ambiguous: milli or mega? \
+             (write the prefix as m or M with the unit in its usual case, or give \
+             --unit frequency=UNIT)"
         );
         let ok = format!("f (HZ),re (Ω),im [ohms]\n{ROWS}");
         assert!(parse(ok.as_bytes()).is_ok());
+    }
+
+    /// Headings and number formats of instrument and spreadsheet exports,
+    /// each read to the same spectrum as the canonical file.
+    #[test]
+    fn reads_what_instruments_and_spreadsheets_write() {
+        let want_f = [0.1, 1.0, 10.0, 100.0, 1000.0];
+        let want_re = [14.0, 13.0, 12.0, 11.0, 10.0];
+        let want_im = [-1.0, -3.0, -7.0, -6.0, -5.0];
+        let check = |bytes: &[u8], what: &str| -> SpectrumLayout {
+            let (s, layout) = parse(bytes).unwrap_or_else(|e| panic!("{what}: {e}"));
+            assert_all_close(&s.frequency_hz, &want_f);
+            assert_all_close(&s.z_re_ohm, &want_re);
+            assert_all_close(&s.z_im_ohm, &want_im);
+            layout
+        };
+        // Semicolons and decimal commas (European spreadsheets).
+        check(
+            b"Frequency/Hz;Z'/Ohm;Z''/Ohm\n1000,0;10,0;-5,0\n100;11;-6\n1,0e1;12;-7\n1;13;-3\n0,1;14;-1\n",
+            "decimal comma",
+        );
+        // Unit prefixes, ISO 80000-1 quantity/unit headings, (Z) quantities.
+        let layout = check(
+            b"f/kHz\tRe(Z)/mOhm\t-Im(Z)/mOhm\n1\t10000\t5000\n0,1\t11000\t6000\n0,01\t12000\t7000\n\
+              0,001\t13000\t3000\n0,0001\t14000\t1000\n",
+            "prefixes",
+        );
+        assert_eq!(layout.factors, [1e3, 1e-3, 1e-3]);
+        assert!(layout.negated_imag);
+        check(
+            "Freq (mHz),Z' (k\u{3a9}),Z'' (k\u{3a9})\n1e6,0.010,-0.005\n1e5,0.011,-0.006\n\
+             1e4,0.012,-0.007\n1e3,0.013,-0.003\n1e2,0.014,-0.001\n"
+                .as_bytes(),
+            "mHz and kΩ",
+        );
+        // A free-text block above the header, without '#'.
+        let layout = check(
+            b"Instrument export\nOperator: A. Smith, shift 2\nArea: 1,0 cm2\n\nfreq,re,im\n\
+              1000,10,-5\n100,11,-6\n10,12,-7\n1,13,-3\n0.1,14,-1\n",
+            "preamble",
+        );
+        assert_eq!(layout.preamble, Some((1, 3)));
+        assert_eq!(layout.header_line, 5);
+        // A trailing delimiter on every data row, but not on the header.
+        check(
+            b"f;re;im\n1000;10;-5;\n100;11;-6;\n10;12;-7;\n1;13;-3;\n0.1;14;-1;\n",
+            "trailing delimiter",
+        );
+        // Latin-1 (a degree sign and a micro sign as single bytes).
+        let polar = |ph: &str, m: f64, sign: f64| -> Vec<u8> {
+            let mut out = Vec::new();
+            for ((f, re), im) in want_f.iter().zip(want_re).zip(want_im) {
+                let modulus = (re * re + im * im).sqrt() * m;
+                let phi = sign * im.atan2(re).to_degrees();
+                out.extend(format!("{f};{modulus:.15e};{phi:.15e}\n").into_bytes());
+            }
+            let mut text = ph.as_bytes().to_vec();
+            text.extend(out);
+            text
+        };
+        let mut latin1 = b"Freq/Hz;|Z|/\xB5Ohm;Phase/\xB0\n".to_vec();
+        latin1.extend(polar("", 1e6, 1.0));
+        let layout = check(&latin1, "latin-1");
+        assert_eq!(layout.encoding, TextEncoding::Latin1);
+        assert_eq!(layout.column_names[2], "Phase/\u{b0}");
+        // A negated-phase column, in radians.
+        let mut neg = polar("f;|Z|;-phase (rad)\n", 1.0, -1.0);
+        let text = String::from_utf8(neg.clone()).unwrap();
+        let head_len = "f;|Z|;-phase (rad)\n".len();
+        let mut rows = String::new();
+        for line in text[head_len..].lines() {
+            let v: Vec<&str> = line.split(';').collect();
+            let rad: f64 = v[2].parse::<f64>().unwrap().to_radians();
+            rows.push_str(&format!("{};{};{rad:.15e}\n", v[0], v[1]));
+        }
+        neg = format!("f;|Z|;-phase (rad)\n{rows}").into_bytes();
+        let layout = check(&neg, "negated phase in radians");
+        assert!(layout.negated_phase && layout.polar);
+        // UTF-16 with and without a byte-order mark, both byte orders.
+        let text = format!("f,re,im\n{ROWS}");
+        let le: Vec<u8> = text.encode_utf16().flat_map(u16::to_le_bytes).collect();
+        let be: Vec<u8> = text.encode_utf16().flat_map(u16::to_be_bytes).collect();
+        for (bytes, enc) in [
+            ([&[0xFF, 0xFE][..], &le].concat(), TextEncoding::Utf16Le),
+            (le.clone(), TextEncoding::Utf16Le),
+            ([&[0xFE, 0xFF][..], &be].concat(), TextEncoding::Utf16Be),
+            (be.clone(), TextEncoding::Utf16Be),
+        ] {
+            assert_eq!(check(&bytes, "utf-16").encoding, enc);
+        }
+    }
+
+    #[test]
+    fn column_choices_settle_ambiguity() {
+        let text = format!("f,re,im,Zre\n{}", ROWS.replace('\n', ",0\n"));
+        assert!(
+            err_text(text.as_bytes()).contains("or choose one with --column real=HEADING"),
+            "{}",
+            err_text(text.as_bytes())
+        );
+        let mut map = ColumnMap::default();
+        map.add_column("real=re").unwrap();
+        let (s, layout) = parse_spectrum_with(text.as_bytes(), Path::new(P), &map).unwrap();
+        assert_eq!(layout.columns, [0, 1, 2]);
+        assert_all_close(&s.z_re_ohm, &[14.0, 13.0, 12.0, 11.0, 10.0]);
+        let mut map = ColumnMap::default();
+        map.add_column("real=#4").unwrap();
+        let (s, _) = parse_spectrum_with(text.as_bytes(), Path::new(P), &map).unwrap();
+        assert_all_close(&s.z_re_ohm, &[0.0; 5]);
+        // A heading whose unit case is ambiguous, settled by --unit.
+        let text = format!("f (MHZ),re,im\n{ROWS}");
+        let mut map = ColumnMap::default();
+        map.add_unit("frequency=mHz").unwrap();
+        let (s, _) = parse_spectrum_with(text.as_bytes(), Path::new(P), &map).unwrap();
+        assert_all_close(&s.frequency_hz, &[1e-4, 1e-3, 1e-2, 1e-1, 1.0]);
+        // Unknown roles are refused with the list of known ones.
+        let mut map = ColumnMap::default();
+        map.add_column("time=#1").unwrap();
+        assert_eq!(
+            parse_spectrum_with(text.as_bytes(), Path::new(P), &map)
+                .unwrap_err()
+                .to_string(),
+            "--column: unknown role \"time\" for this input (use one of frequency, real, imag, \
+             neg-imag, modulus, phase, neg-phase)"
+        );
+    }
+
+    #[test]
+    fn headerless_free_text_and_limits_are_reported() {
+        assert_eq!(
+            err_text(b"Instrument export\nOperator: A. Smith\n1000,10,-5\n100,11,-6\n"),
+            "cell_a.csv:1: no header line found: lines 1-3 name no frequency and impedance \
+             columns, and line 3 already holds numbers (first line read: \"Instrument export\"; \
+             expected a header line such as \"frequency_hz,z_re_ohm,z_im_ohm\")"
+        );
+        let mut big = String::from("f,re,im\n");
+        for k in 0..=MAX_POINTS {
+            big.push_str(&format!("{},1,-1\n", k + 1));
+        }
+        assert_eq!(
+            err_text(big.as_bytes()),
+            format!(
+                "cell_a.csv:{}: more than 100000 points: a spectrum is read whole, and taumap \
+                 reads at most 100000 frequencies (thin the file or split it)",
+                MAX_POINTS + 2
+            )
+        );
+        let long = format!(
+            "f,re,im\n{}\n",
+            "7".repeat(crate::io::table::MAX_LINE_BYTES + 10)
+        );
+        assert_eq!(
+            err_text(long.as_bytes()),
+            "cell_a.csv:2: line is longer than 1048576 bytes (starts \"7777777777777777777777777777777777777777... \
+             (160 characters)\"); a table row is a short line of numbers"
+        );
+        assert_eq!(
+            err_text(b"PK\x03\x04\x14\x00\x06\x00"),
+            "cell_a.csv:1: control character U+0003 at column 3: this looks like a binary file \
+             (export the data as delimited text, e.g. CSV)"
+        );
     }
 
     #[test]
@@ -737,7 +1114,7 @@ mod tests {
         );
         assert_eq!(
             err_text(b"f,re,im\n1,1,-1\n\xE9\n"),
-            "cell_a.csv:3: line is not valid UTF-8 (byte 0xE9 at column 1; save the file as UTF-8)"
+            "cell_a.csv:3: expected 3 fields, found 1"
         );
     }
 

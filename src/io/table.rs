@@ -42,6 +42,9 @@ pub struct TableHead {
     pub header_text: String,
     /// 1-based physical line number of the header.
     pub header_line: usize,
+    /// First and last line of the free text skipped above the header, if
+    /// any (comments and blank lines are not counted).
+    pub preamble: Option<(usize, usize)>,
 }
 
 /// A delimited text table: a header and the data rows below it.
@@ -111,83 +114,329 @@ impl<R: BufRead> std::ops::Deref for TableReader<R> {
     }
 }
 
-/// Physical lines pulled from a reader, numbered from 1: ends `\n`, `\r\n`
-/// or a lone `\r`; a leading byte-order mark is dropped.
-#[derive(Debug, Default)]
-struct LineSource {
-    line: usize,
-    started: bool,
-    chunk: Vec<u8>,
-    pending: std::collections::VecDeque<Vec<u8>>,
+/// Longest physical line accepted, in bytes of UTF-8 text (1 MiB): a
+/// line of numbers is a few dozen bytes, so a longer one is not a table
+/// row, and the limit keeps memory bounded on a file without line ends.
+pub const MAX_LINE_BYTES: usize = 1 << 20;
+
+/// The text encoding a table was read in.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum TextEncoding {
+    /// UTF-8 (or plain ASCII), with or without a byte-order mark.
+    #[default]
+    Utf8,
+    /// UTF-16, little-endian; with a byte-order mark or recognised by the
+    /// zero high bytes of ASCII text.
+    Utf16Le,
+    /// UTF-16, big-endian.
+    Utf16Be,
+    /// Some lines were not UTF-8 and were read as Windows-1252, the
+    /// superset of ISO 8859-1 (Latin-1) that Western-European systems
+    /// export (a `µ` or `°` byte in a heading).
+    Latin1,
 }
 
-impl LineSource {
-    fn next<R: BufRead>(&mut self, reader: &mut R, path: &Path) -> Result<Option<(usize, String)>> {
-        if self.pending.is_empty() {
-            self.chunk.clear();
-            let n = reader
-                .read_until(b'\n', &mut self.chunk)
-                .map_err(|source| Error::Io {
-                    path: path.to_path_buf(),
-                    source,
-                })?;
-            if n == 0 {
-                return Ok(None);
-            }
-            let mut body: &[u8] = &self.chunk;
-            if !self.started {
-                self.started = true;
-                if body.starts_with(&[0xFF, 0xFE]) || body.starts_with(&[0xFE, 0xFF]) {
-                    return Err(Error::Parse {
-                        path: path.to_path_buf(),
-                        line: 1,
-                        msg: "file is encoded as UTF-16 (save it as UTF-8)".into(),
-                    });
-                }
-                body = body.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(body);
-                if body.is_empty() {
-                    return Ok(None);
-                }
-            }
-            let body = body.strip_suffix(b"\n").unwrap_or(body);
-            let body = body.strip_suffix(b"\r").unwrap_or(body);
-            // Whatever carriage returns remain are lone-CR line ends.
-            self.pending
-                .extend(body.split(|b| *b == b'\r').map(<[u8]>::to_vec));
-        }
-        let Some(raw) = self.pending.pop_front() else {
-            return Ok(None);
-        };
-        self.line += 1;
-        let line_no = self.line;
-        match String::from_utf8(raw) {
-            Ok(text) => Ok(Some((line_no, text))),
-            Err(e) => {
-                let at = e.utf8_error().valid_up_to();
-                let byte = e.as_bytes().get(at).copied().unwrap_or(0);
-                Err(Error::Parse {
-                    path: path.to_path_buf(),
-                    line: line_no,
-                    msg: format!(
-                        "line is not valid UTF-8 (byte 0x{byte:02X} at column {}; save the file as UTF-8)",
-                        at + 1
-                    ),
-                })
-            }
+impl TextEncoding {
+    /// A short name for messages and reports.
+    pub fn name(self) -> &'static str {
+        match self {
+            TextEncoding::Utf8 => "UTF-8",
+            TextEncoding::Utf16Le => "UTF-16LE",
+            TextEncoding::Utf16Be => "UTF-16BE",
+            TextEncoding::Latin1 => "Latin-1 (Windows-1252)",
         }
     }
 }
 
+/// Physical lines pulled from a reader in bounded memory, numbered from 1:
+/// ends `\n`, `\r\n` or a lone `\r`; a leading byte-order mark is dropped;
+/// UTF-16 is transcoded on the fly; a line that is not UTF-8 is read as
+/// Windows-1252 (Latin-1).
+#[derive(Default)]
+struct LineSource {
+    line: usize,
+    started: bool,
+    eof: bool,
+    /// The previous line ended with `\r` at the end of the buffer: a `\n`
+    /// arriving next belongs to it.
+    pending_cr: bool,
+    /// UTF-8 text read but not yet returned, from `pos` on.
+    buf: Vec<u8>,
+    pos: usize,
+    decoder: Option<encoding_rs::Decoder>,
+    encoding: TextEncoding,
+}
+
+impl std::fmt::Debug for LineSource {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.debug_struct("LineSource")
+            .field("line", &self.line)
+            .field("encoding", &self.encoding)
+            .field("buffered", &(self.buf.len() - self.pos))
+            .finish_non_exhaustive()
+    }
+}
+
+impl LineSource {
+    /// Appends the next chunk of the reader to `buf` (as UTF-8); sets `eof`
+    /// at the end.
+    fn fill<R: BufRead>(&mut self, reader: &mut R, path: &Path) -> Result<()> {
+        let io_err = |source| Error::Io {
+            path: path.to_path_buf(),
+            source,
+        };
+        let chunk = loop {
+            match reader.fill_buf() {
+                Ok(c) => break c,
+                Err(e) if e.kind() == std::io::ErrorKind::Interrupted => {}
+                Err(e) => return Err(io_err(e)),
+            }
+        };
+        let n = chunk.len();
+        let mut body = chunk;
+        if !self.started {
+            self.started = true;
+            if let Some(rest) = body.strip_prefix(b"\xEF\xBB\xBF") {
+                body = rest;
+            } else if let Some((encoding, dec)) = sniff_utf16(body) {
+                self.encoding = encoding;
+                self.decoder = Some(dec);
+            }
+        }
+        match self.decoder.as_mut() {
+            Some(dec) => {
+                let last = n == 0;
+                let needed = dec
+                    .max_utf8_buffer_length(body.len())
+                    .unwrap_or(body.len().saturating_mul(3) + 16);
+                let start = self.buf.len();
+                self.buf.resize(start + needed, 0);
+                let (_, read, written, _) = dec.decode_to_utf8(body, &mut self.buf[start..], last);
+                debug_assert_eq!(read, body.len(), "the buffer was sized for the whole chunk");
+                self.buf.truncate(start + written);
+            }
+            None => self.buf.extend_from_slice(body),
+        }
+        reader.consume(n);
+        if n == 0 {
+            self.eof = true;
+        }
+        Ok(())
+    }
+
+    /// The next physical line, or `None` at the end of the input.
+    fn next<R: BufRead>(&mut self, reader: &mut R, path: &Path) -> Result<Option<(usize, String)>> {
+        let mut scanned = 0;
+        let raw = loop {
+            if self.pending_cr && self.pos < self.buf.len() {
+                if self.buf[self.pos] == b'\n' {
+                    self.pos += 1;
+                }
+                self.pending_cr = false;
+            }
+            let rest = &self.buf[self.pos..];
+            if let Some(i) = rest[scanned.min(rest.len())..]
+                .iter()
+                .position(|b| *b == b'\n' || *b == b'\r')
+                .map(|i| i + scanned)
+            {
+                if i > MAX_LINE_BYTES {
+                    return Err(long_line(path, self.line + 1, rest));
+                }
+                let ended_by_cr = rest[i] == b'\r';
+                let raw = rest[..i].to_vec();
+                self.pos += i + 1;
+                if ended_by_cr {
+                    self.pending_cr = true;
+                }
+                break raw;
+            }
+            scanned = rest.len();
+            if scanned > MAX_LINE_BYTES {
+                return Err(long_line(path, self.line + 1, rest));
+            }
+            if self.eof {
+                if rest.is_empty() {
+                    return Ok(None);
+                }
+                let raw = rest.to_vec();
+                self.pos = self.buf.len();
+                break raw;
+            }
+            // Keep only the unread tail before reading more.
+            self.buf.drain(..self.pos);
+            self.pos = 0;
+            self.fill(reader, path)?;
+        };
+        self.line += 1;
+        let line_no = self.line;
+        let text = match String::from_utf8(raw) {
+            Ok(text) => text,
+            Err(e) => {
+                // Not UTF-8: Windows-1252 maps every byte, and is what a
+                // Western-European spreadsheet writes.
+                self.encoding = TextEncoding::Latin1;
+                encoding_rs::WINDOWS_1252
+                    .decode_without_bom_handling(e.as_bytes())
+                    .0
+                    .into_owned()
+            }
+        };
+        if let Some((at, c)) = text
+            .chars()
+            .enumerate()
+            .find(|(_, c)| c.is_control() && *c != '\t' && !('\u{80}'..='\u{9f}').contains(c))
+        {
+            return Err(Error::Parse {
+                path: path.to_path_buf(),
+                line: line_no,
+                msg: format!(
+                    "control character U+{:04X} at column {}: this looks like a binary file \
+                     (export the data as delimited text, e.g. CSV)",
+                    c as u32,
+                    at + 1
+                ),
+            });
+        }
+        Ok(Some((line_no, text)))
+    }
+}
+
+/// The error for a line longer than [`MAX_LINE_BYTES`], quoting its start.
+fn long_line(path: &Path, line: usize, text: &[u8]) -> Error {
+    let head = String::from_utf8_lossy(&text[..text.len().min(160)]).into_owned();
+    Error::Parse {
+        path: path.to_path_buf(),
+        line,
+        msg: format!(
+            "line is longer than {MAX_LINE_BYTES} bytes (starts \"{}\"); \
+             a table row is a short line of numbers",
+            excerpt(&head)
+        ),
+    }
+}
+
+/// Recognises UTF-16 text by its byte-order mark, or, without one, by the
+/// zero high bytes of its first two ASCII characters.
+fn sniff_utf16(head: &[u8]) -> Option<(TextEncoding, encoding_rs::Decoder)> {
+    use encoding_rs::{UTF_16BE, UTF_16LE};
+    match head {
+        [0xFF, 0xFE, ..] => Some((
+            TextEncoding::Utf16Le,
+            UTF_16LE.new_decoder_with_bom_removal(),
+        )),
+        [0xFE, 0xFF, ..] => Some((
+            TextEncoding::Utf16Be,
+            UTF_16BE.new_decoder_with_bom_removal(),
+        )),
+        [a, 0, b, 0, ..] if *a != 0 && *b != 0 => Some((
+            TextEncoding::Utf16Le,
+            UTF_16LE.new_decoder_without_bom_handling(),
+        )),
+        [0, a, 0, b, ..] if *a != 0 && *b != 0 => Some((
+            TextEncoding::Utf16Be,
+            UTF_16BE.new_decoder_without_bom_handling(),
+        )),
+        _ => None,
+    }
+}
+
+/// Lines of free text (not comments) searched for a header before a file is
+/// declared header-less: instrument exports put tens of lines of settings
+/// above the table, never thousands.
+pub const MAX_PREAMBLE_LINES: usize = 1000;
+
+/// No line of a file's head was accepted as its header; see
+/// [`TableReader::find_header`].
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct NoHeader {
+    /// The first line that is not blank or a comment, read as a header.
+    pub first: TableHead,
+    /// Number of such lines examined.
+    pub examined: usize,
+    /// Physical line number of the last line examined.
+    pub last_line: usize,
+    /// The search stopped at a line of numbers (data before any header).
+    pub stopped_at_data: bool,
+}
+
+impl NoHeader {
+    /// Whether one line at most was a candidate: the first line read, or
+    /// the first line above the data. Its own faults then explain the
+    /// failure better than [`Self::error`] does.
+    pub fn single_candidate(&self) -> bool {
+        self.examined - usize::from(self.stopped_at_data) <= 1
+    }
+
+    /// The error to report when the caller has nothing more specific:
+    /// names the lines searched and the header expected.
+    pub fn error(&self, wanted: &str, example_header: &str) -> Error {
+        let first = &self.first;
+        let range = if self.examined == 1 {
+            format!("line {}", first.header_line)
+        } else {
+            format!("lines {}-{}", first.header_line, self.last_line)
+        };
+        let stop = if self.stopped_at_data {
+            format!(", and line {} already holds numbers", self.last_line)
+        } else {
+            String::new()
+        };
+        first.error(
+            first.header_line,
+            format!(
+                "no header line found: {range} name no {wanted}{stop} \
+                 (first line read: \"{}\"; expected a header line such as \"{example_header}\")",
+                excerpt(&first.header_text)
+            ),
+        )
+    }
+}
+
 impl<R: BufRead> TableReader<R> {
-    /// Reads up to and including the header line.
+    /// Reads up to and including the header line, the first line that is
+    /// not blank or a comment.
     ///
     /// Fails as [`read_table`] does for an empty file, a file without a
     /// header, bad encoding or an unterminated quote in the header.
-    pub fn new(mut reader: R, path: &Path, example_header: &str) -> Result<Self> {
+    pub fn new(reader: R, path: &Path, example_header: &str) -> Result<Self> {
+        match Self::find_header(reader, path, example_header, |_| true)? {
+            Ok(table) => Ok(table),
+            Err(no) => Err(no.error("columns", example_header)),
+        }
+    }
+
+    /// Reads up to and including the first line that `is_header` accepts,
+    /// skipping a block of free text above it (an instrument's settings,
+    /// written without `#`): the lines skipped are recorded in
+    /// [`TableHead::preamble`].
+    ///
+    /// Returns `Ok(Err(NoHeader))` when no line is accepted before the end
+    /// of the file, before a line of numbers (data without a header) or
+    /// within [`MAX_PREAMBLE_LINES`] lines; the caller explains why from
+    /// [`NoHeader::first`]. Fails for an empty file, a file of comments,
+    /// bad encoding, or an unterminated quote in the accepted line.
+    pub fn find_header(
+        mut reader: R,
+        path: &Path,
+        example_header: &str,
+        is_header: impl Fn(&TableHead) -> bool,
+    ) -> Result<std::result::Result<Self, NoHeader>> {
         let mut lines = LineSource::default();
         let mut saw_comment = false;
+        let mut first: Option<TableHead> = None;
+        let mut last_skipped = 0;
+        let mut examined = 0;
         loop {
             let Some((line_no, text)) = lines.next(&mut reader, path)? else {
+                if let Some(first) = first {
+                    return Ok(Err(NoHeader {
+                        first,
+                        examined,
+                        last_line: lines.line,
+                        stopped_at_data: false,
+                    }));
+                }
                 let msg = if saw_comment {
                     format!(
                         "no header line found, only comments and blank lines \
@@ -210,24 +459,54 @@ impl<R: BufRead> TableReader<R> {
                 saw_comment = true;
                 continue;
             }
+            examined += 1;
             let delimiter = detect_delimiter(&text);
-            let header = split_fields(&text, delimiter).map_err(|msg| Error::Parse {
+            let split = split_fields(&text, delimiter);
+            let head = TableHead {
                 path: path.to_path_buf(),
-                line: line_no,
-                msg,
-            })?;
-            return Ok(Self {
-                reader,
-                head: TableHead {
-                    path: path.to_path_buf(),
-                    delimiter,
-                    header,
-                    header_text: trimmed.to_string(),
-                    header_line: line_no,
-                },
-                lines,
-            });
+                delimiter,
+                header: split.clone().map(trim_trailing_empty).unwrap_or_default(),
+                header_text: trimmed.to_string(),
+                header_line: line_no,
+                preamble: first.as_ref().map(|f| (f.header_line, last_skipped)),
+            };
+            let data_like = head.header.len() >= 2
+                && head
+                    .header
+                    .iter()
+                    .all(|f| f.is_empty() || parse_number(f, delimiter != ',').is_ok());
+            if !data_like && is_header(&head) {
+                // Only the accepted line must split cleanly: free text above
+                // it may hold stray quotes.
+                if let Err(msg) = split {
+                    return Err(head.error(line_no, msg));
+                }
+                return Ok(Ok(Self {
+                    reader,
+                    head,
+                    lines,
+                }));
+            }
+            last_skipped = line_no;
+            let first_head = first.get_or_insert(head);
+            if data_like || examined >= MAX_PREAMBLE_LINES {
+                if let Err(msg) = split_fields(&first_head.header_text, first_head.delimiter) {
+                    return Err(first_head.error(first_head.header_line, msg));
+                }
+                return Ok(Err(NoHeader {
+                    first: first_head.clone(),
+                    examined,
+                    last_line: line_no,
+                    stopped_at_data: data_like,
+                }));
+            }
         }
+    }
+
+    /// The text encoding the file has been read in so far (a Latin-1 line
+    /// further down can still change it).
+    pub fn encoding(&self) -> TextEncoding {
+        self.lines.encoding
     }
 
     /// The next data row, skipping comments, blank lines and lines of
@@ -243,6 +522,11 @@ impl<R: BufRead> TableReader<R> {
             if fields.iter().all(String::is_empty) {
                 continue;
             }
+            let fields = if fields.len() > self.head.header.len() {
+                trim_trailing_empty(fields)
+            } else {
+                fields
+            };
             if fields.len() != self.head.header.len() {
                 return Err(self.head.error(
                     line_no,
@@ -287,10 +571,23 @@ impl TableHead {
     }
 
     /// Parses field `col` of `row` as a finite number; see [`parse_finite`].
+    /// A decimal comma is accepted unless the delimiter is a comma.
     ///
     /// A field missing from `row` reads as an empty field.
     pub fn number(&self, row: &Row, col: usize) -> Result<f64> {
-        parse_finite(&self.path, row.line, row.field(col), self.column_name(col))
+        parse_finite(
+            &self.path,
+            row.line,
+            row.field(col),
+            self.column_name(col),
+            self.decimal_comma(),
+        )
+    }
+
+    /// Whether a comma in a number is a decimal comma: when the delimiter
+    /// is not a comma (common practice in locales that write `1,5`).
+    pub fn decimal_comma(&self) -> bool {
+        self.delimiter != ','
     }
 
     /// An [`Error::Parse`] for this table's file at `line`.
@@ -316,40 +613,93 @@ pub fn excerpt(text: &str) -> String {
     format!("{head}... ({n} characters)")
 }
 
+/// Why a field is not a number; see [`parse_number`].
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum NumberError {
+    Missing,
+    NotFinite,
+    /// Both a point and a comma: a thousands separator or a typing error.
+    MixedSeparators,
+    /// Unreadable; `true` when a decimal comma would have made it a number
+    /// (only possible in comma-delimited files, where it is not accepted).
+    Unreadable(bool),
+}
+
+/// Parses `text` (surrounding spaces ignored) as a finite `f64`; with
+/// `decimal_comma`, one comma stands for the decimal point (`1,5e-3`).
+fn parse_number(text: &str, decimal_comma: bool) -> std::result::Result<f64, NumberError> {
+    let t = text.trim();
+    if t.is_empty() {
+        return Err(NumberError::Missing);
+    }
+    let swapped;
+    let t = if decimal_comma && t.contains(',') {
+        if t.contains('.') {
+            return Err(NumberError::MixedSeparators);
+        }
+        swapped = t.replacen(',', ".", 1);
+        swapped.as_str()
+    } else {
+        t
+    };
+    match t.parse::<f64>() {
+        Ok(v) if v.is_finite() => Ok(v),
+        Ok(_) => Err(NumberError::NotFinite),
+        Err(_) => Err(NumberError::Unreadable(
+            !decimal_comma && t.contains(',') && t.replacen(',', ".", 1).parse::<f64>().is_ok(),
+        )),
+    }
+}
+
 /// Parses `text` (surrounding spaces ignored) as a finite `f64`.
 ///
 /// Accepts the usual decimal and exponent forms (`1000`, `-5.2`, `1e3`,
-/// `.5`). Fails with [`Error::Parse`] at `path:line`, naming `column`:
-/// `missing value (column c)`, `cannot read "1.2e" as a number (column c)`
-/// or `value "inf" is not finite (column c)`; a decimal comma gets a hint.
-pub fn parse_finite(path: &Path, line: usize, text: &str, column: &str) -> Result<f64> {
+/// `.5`), and with `decimal_comma` a comma for the decimal point (`1,5`),
+/// as files delimited by semicolons or tabs write it. Fails with
+/// [`Error::Parse`] at `path:line`, naming `column`: `missing value
+/// (column c)`, `cannot read "1.2e" as a number (column c)` or `value "inf"
+/// is not finite (column c)`; a decimal comma in a comma-delimited file and
+/// a number with both separators get a hint.
+pub fn parse_finite(
+    path: &Path,
+    line: usize,
+    text: &str,
+    column: &str,
+    decimal_comma: bool,
+) -> Result<f64> {
     let err = |msg: String| Error::Parse {
         path: path.to_path_buf(),
         line,
         msg,
     };
-    let t = text.trim();
-    if t.is_empty() {
-        return Err(err(format!("missing value (column {column})")));
-    }
-    let shown = excerpt(t);
-    match t.parse::<f64>() {
-        Ok(v) if v.is_finite() => Ok(v),
-        Ok(_) => Err(err(format!(
-            "value \"{shown}\" is not finite (column {column})"
-        ))),
-        Err(_) => {
-            let decimal_comma = t.contains(',') && t.replacen(',', ".", 1).parse::<f64>().is_ok();
-            let hint = if decimal_comma {
-                "; use a point as the decimal separator"
+    let shown = excerpt(text.trim());
+    parse_number(text, decimal_comma).map_err(|e| match e {
+        NumberError::Missing => err(format!("missing value (column {column})")),
+        NumberError::NotFinite => err(format!("value \"{shown}\" is not finite (column {column})")),
+        NumberError::MixedSeparators => err(format!(
+            "cannot read \"{shown}\" as a number (column {column}; write no thousands \
+             separator, and a comma or a point as the decimal separator, not both)"
+        )),
+        NumberError::Unreadable(comma) => {
+            let hint = if comma {
+                "; in a comma-delimited file use a point as the decimal separator"
             } else {
                 ""
             };
-            Err(err(format!(
+            err(format!(
                 "cannot read \"{shown}\" as a number (column {column}{hint})"
-            )))
+            ))
         }
+    })
+}
+
+/// Drops empty fields at the end of a line beyond the first field (a
+/// trailing delimiter, as spreadsheets write).
+fn trim_trailing_empty(mut fields: Vec<String>) -> Vec<String> {
+    while fields.len() > 1 && fields.last().is_some_and(String::is_empty) {
+        fields.pop();
     }
+    fields
 }
 
 /// Splits a column name into its normalised name and its unit, if any.
@@ -406,6 +756,12 @@ pub fn split_unit(raw: &str) -> (String, Option<String>) {
             if looks_like_unit {
                 unit = Some(after.to_string());
                 s = rest.to_string();
+                // `Re(Z)/Ohm`: the quantity's `(Z)` comes before the slash.
+                if let Some((rest, inside)) = split_suffix_group(&s) {
+                    if inside.trim().eq_ignore_ascii_case("z") {
+                        s = rest;
+                    }
+                }
             }
         }
     }
@@ -627,14 +983,12 @@ mod tests {
 
     #[test]
     fn bad_encoding_and_quotes_are_errors() {
-        assert_eq!(
-            err_text(b"a,b\n1,2\n\xB5s,3\n"),
-            "cell_a.csv:3: line is not valid UTF-8 (byte 0xB5 at column 1; save the file as UTF-8)"
-        );
-        assert_eq!(
-            err_text(b"\xFF\xFEa\x00"),
-            "cell_a.csv:1: file is encoded as UTF-16 (save it as UTF-8)"
-        );
+        // Latin-1 lines are read as Windows-1252; UTF-16 is transcoded.
+        let t = read(b"a,b\n1,2\n\xB5s,3\n").unwrap();
+        assert_eq!(t.rows[1].fields, ["\u{b5}s", "3"]);
+        let t = read(b"\xFF\xFEa\x00,\x00b\x00\n\x001\x00,\x002\x00").unwrap();
+        assert_eq!(t.header, ["a", "b"]);
+        assert_eq!(t.rows[0].fields, ["1", "2"]);
         assert_eq!(
             err_text(b"a,b\n1,\"2\n"),
             "cell_a.csv:2: unterminated quote in field 2 (close it with '\"')"
@@ -667,21 +1021,43 @@ mod tests {
             "cell_a.csv:3: value \"inf\" is not finite (column z_re_ohm)"
         );
         assert!(close(t.number(&rows[2], 0).unwrap(), 7.0));
-        assert_eq!(
-            t.number(&rows[2], 1).unwrap_err().to_string(),
-            "cell_a.csv:4: cannot read \"1,5\" as a number \
-             (column z_re_ohm; use a point as the decimal separator)"
-        );
+        // A semicolon file takes a decimal comma.
+        assert!(close(t.number(&rows[2], 1).unwrap(), 1.5));
         let p = Path::new("x.csv");
         assert_eq!(
-            parse_finite(p, 9, "NaN", "c").unwrap_err().to_string(),
+            parse_finite(p, 4, "1,5", "c", false)
+                .unwrap_err()
+                .to_string(),
+            "x.csv:4: cannot read \"1,5\" as a number \
+             (column c; in a comma-delimited file use a point as the decimal separator)"
+        );
+        assert_eq!(
+            parse_finite(p, 4, "1.234,5", "c", true)
+                .unwrap_err()
+                .to_string(),
+            "x.csv:4: cannot read \"1.234,5\" as a number (column c; write no thousands \
+             separator, and a comma or a point as the decimal separator, not both)"
+        );
+        assert!(close(
+            parse_finite(p, 4, "-2,5E-3", "c", true).unwrap(),
+            -2.5e-3
+        ));
+        assert_eq!(
+            parse_finite(p, 9, "NaN", "c", false)
+                .unwrap_err()
+                .to_string(),
             "x.csv:9: value \"NaN\" is not finite (column c)"
         );
         assert_eq!(
-            parse_finite(p, 9, "1e400", "c").unwrap_err().to_string(),
+            parse_finite(p, 9, "1e400", "c", false)
+                .unwrap_err()
+                .to_string(),
             "x.csv:9: value \"1e400\" is not finite (column c)"
         );
-        assert!(close(parse_finite(p, 9, " -.5E+1 ", "c").unwrap(), -5.0));
+        assert!(close(
+            parse_finite(p, 9, " -.5E+1 ", "c", false).unwrap(),
+            -5.0
+        ));
     }
 
     #[test]
@@ -693,6 +1069,9 @@ mod tests {
         assert_eq!(split_unit("−Z″ (Ω)"), ("-z''".into(), Some("Ω".into())));
         assert_eq!(split_unit("Re(Z) (Ohm)"), ("re".into(), Some("Ohm".into())));
         assert_eq!(split_unit("-Im(Z)"), ("-im".into(), None));
+        assert_eq!(split_unit("Re(Z)/Ohm"), ("re".into(), Some("Ohm".into())));
+        assert_eq!(split_unit("f/Hz"), ("f".into(), Some("Hz".into())));
+        assert_eq!(split_unit("φ/°"), ("φ".into(), Some("°".into())));
         assert_eq!(split_unit("'freq'"), ("freq".into(), None));
         assert_eq!(split_unit("Phase  Deg"), ("phase_deg".into(), None));
         assert_eq!(split_unit("- Z''"), ("-z''".into(), None));

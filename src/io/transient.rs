@@ -25,7 +25,8 @@ use std::io::{BufRead, BufReader};
 use std::path::Path;
 
 use crate::error::{Error, Result};
-use crate::io::table::{TableReader, split_unit};
+use crate::io::columns::{BaseUnit, ColumnMap, UnitReading, unit_examples, unit_factor};
+use crate::io::table::{TableHead, TableReader, excerpt, split_unit};
 use crate::pipeline::binning::{Accumulator, BinOptions, BinnedTransient, MIN_BINS};
 
 /// The measured quantity of a transient.
@@ -59,22 +60,39 @@ const VOLTAGE_NAMES: &[&str] = &[
     "potential_v",
 ];
 const CURRENT_NAMES: &[&str] = &["current_a", "current", "i", "i_a"];
-const TIME_UNITS: &[(&str, f64)] = &[
-    ("s", 1.0),
-    ("ms", 1e-3),
-    ("us", 1e-6),
-    ("\u{b5}s", 1e-6),
-    ("\u{3bc}s", 1e-6),
-    ("ns", 1e-9),
-];
-const VOLTAGE_UNITS: &[(&str, f64)] = &[("v", 1.0), ("mv", 1e-3)];
-const CURRENT_UNITS: &[(&str, f64)] = &[
-    ("a", 1.0),
-    ("ma", 1e-3),
-    ("ua", 1e-6),
-    ("\u{b5}a", 1e-6),
-    ("\u{3bc}a", 1e-6),
-];
+const SECOND: BaseUnit = BaseUnit {
+    spellings: &["s", "sec", "second", "seconds"],
+    usual: &["s"],
+    factor: 1.0,
+    prefixes: "mun",
+};
+const MINUTE: BaseUnit = BaseUnit {
+    spellings: &["min", "minute", "minutes"],
+    usual: &["min"],
+    factor: 60.0,
+    prefixes: "",
+};
+const HOUR: BaseUnit = BaseUnit {
+    spellings: &["h", "hour", "hours"],
+    usual: &["h"],
+    factor: 3600.0,
+    prefixes: "",
+};
+const VOLT: BaseUnit = BaseUnit {
+    spellings: &["v", "volt", "volts"],
+    usual: &["V"],
+    factor: 1.0,
+    prefixes: "mu",
+};
+const AMPERE: BaseUnit = BaseUnit {
+    spellings: &["a", "amp", "ampere", "amperes"],
+    usual: &["A"],
+    factor: 1.0,
+    prefixes: "mun",
+};
+const TIME_UNITS: &[BaseUnit] = &[SECOND, MINUTE, HOUR];
+const VOLTAGE_UNITS: &[BaseUnit] = &[VOLT];
+const CURRENT_UNITS: &[BaseUnit] = &[AMPERE];
 
 /// Opens and streams a transient file; see [`parse_transient`].
 pub fn read_transient(
@@ -82,11 +100,27 @@ pub fn read_transient(
     quantity: Quantity,
     opts: &BinOptions,
 ) -> Result<BinnedTransient> {
+    read_transient_with(path, quantity, opts, &ColumnMap::default())
+}
+
+/// Opens and streams a transient file with the user's choice of columns
+/// and units; see [`parse_transient_with`]. The path `-` reads standard
+/// input.
+pub fn read_transient_with(
+    path: &Path,
+    quantity: Quantity,
+    opts: &BinOptions,
+    map: &ColumnMap,
+) -> Result<BinnedTransient> {
+    if path == Path::new("-") {
+        let stdin = std::io::stdin();
+        return parse_transient_with(stdin.lock(), Path::new("<stdin>"), quantity, opts, map);
+    }
     let file = File::open(path).map_err(|source| Error::Io {
         path: path.to_path_buf(),
         source,
     })?;
-    parse_transient(BufReader::new(file), path, quantity, opts)
+    parse_transient_with(BufReader::new(file), path, quantity, opts, map)
 }
 
 /// Streams a transient from `reader` into bins; `path` only labels errors.
@@ -101,74 +135,50 @@ pub fn parse_transient<R: BufRead>(
     quantity: Quantity,
     opts: &BinOptions,
 ) -> Result<BinnedTransient> {
+    parse_transient_with(reader, path, quantity, opts, &ColumnMap::default())
+}
+
+/// Like [`parse_transient`], with the user's choice of columns and units
+/// (roles `time`, `voltage`, `current`) taking precedence over recognition
+/// by name. The header is the first line naming a time column and a
+/// voltage or current column; free text above it is skipped.
+pub fn parse_transient_with<R: BufRead>(
+    reader: R,
+    path: &Path,
+    quantity: Quantity,
+    opts: &BinOptions,
+    map: &ColumnMap,
+) -> Result<BinnedTransient> {
     let example = quantity.canonical_header();
-    let mut table = TableReader::new(reader, path, example)?;
-    let header_err = |t: &TableReader<R>, msg: String| t.error(t.header_line, msg);
-    let (names, units, what): (&[&str], &[(&str, f64)], &str) = match quantity {
-        Quantity::Voltage => (VOLTAGE_NAMES, VOLTAGE_UNITS, "voltage"),
-        Quantity::Current => (CURRENT_NAMES, CURRENT_UNITS, "current"),
+    let (names, what): (&[&str], &str) = match quantity {
+        Quantity::Voltage => (VOLTAGE_NAMES, "voltage"),
+        Quantity::Current => (CURRENT_NAMES, "current"),
     };
-    let mut cols = [0usize; 2];
-    let mut scale = [1.0f64; 2];
-    for (k, (aliases, allowed, label)) in [(TIME_NAMES, TIME_UNITS, "time"), (names, units, what)]
-        .into_iter()
-        .enumerate()
-    {
-        let found = table.find_columns(aliases);
-        let col = match found[..] {
-            [only] => only,
-            [] => {
-                let other = match (quantity, label) {
-                    (Quantity::Voltage, "voltage")
-                        if !table.find_columns(CURRENT_NAMES).is_empty() =>
-                    {
-                        " (this file holds a current: use --voltage-step-v for a potential step)"
-                    }
-                    (Quantity::Current, "current")
-                        if !table.find_columns(VOLTAGE_NAMES).is_empty() =>
-                    {
-                        " (this file holds a voltage: use --current-step-a or --relaxation-current-a)"
-                    }
-                    _ => "",
-                };
-                return Err(header_err(
-                    &table,
-                    format!(
-                        "no {label} column found in header \"{}\" (expected e.g. \"{example}\"){other}",
-                        crate::io::table::excerpt(&table.header_text)
-                    ),
-                ));
+    map.check_roles(&["time", what])?;
+    let column = |head: &TableHead, role: &str, aliases: &[&str]| -> Result<Vec<usize>> {
+        Ok(match map.column(head, role)? {
+            Some(c) => vec![c],
+            None => head.find_columns(aliases),
+        })
+    };
+    let found = TableReader::find_header(reader, path, example, |head| {
+        let has = |role, aliases| column(head, role, aliases).is_ok_and(|c| !c.is_empty());
+        // The other quantity's column also marks the header, so that the
+        // message can say which option the file needs.
+        has("time", TIME_NAMES)
+            && (has(what, names) || has("", VOLTAGE_NAMES) || has("", CURRENT_NAMES))
+    })?;
+    let mut table = match found {
+        Ok(table) => table,
+        Err(no) => {
+            // One line examined: say which column it lacks.
+            if no.single_candidate() {
+                choose_columns(&no.first, quantity, map)?;
             }
-            [a, b, ..] => {
-                return Err(header_err(
-                    &table,
-                    format!(
-                        "columns \"{}\" and \"{}\" both name the {label} (remove or rename one of them)",
-                        table.column_name(a),
-                        table.column_name(b)
-                    ),
-                ));
-            }
-        };
-        if let (_, Some(unit)) = split_unit(table.column_name(col)) {
-            let u = unit.to_lowercase();
-            match allowed.iter().find(|(name, _)| *name == u) {
-                Some((_, f)) => scale[k] = *f,
-                None => {
-                    let list: Vec<&str> = allowed.iter().map(|(n, _)| *n).collect();
-                    return Err(header_err(
-                        &table,
-                        format!(
-                            "unsupported unit \"{unit}\" in column \"{}\" (use one of {})",
-                            table.column_name(col),
-                            list.join(", ")
-                        ),
-                    ));
-                }
-            }
+            return Err(no.error(&format!("time and {what} columns"), example));
         }
-        cols[k] = col;
-    }
+    };
+    let (cols, scale) = choose_columns(&table, quantity, map)?;
 
     let mut acc = Accumulator::new(opts)?;
     let mut prev: Option<(f64, usize)> = None;
@@ -222,6 +232,98 @@ pub fn parse_transient<R: BufRead>(
         ));
     }
     Ok(binned)
+}
+
+/// The time and value columns of `head` and the factors from their units
+/// to s and V (or A).
+fn choose_columns(
+    head: &TableHead,
+    quantity: Quantity,
+    map: &ColumnMap,
+) -> Result<([usize; 2], [f64; 2])> {
+    let table = head;
+    let example = quantity.canonical_header();
+    let (names, units, what): (&[&str], &[BaseUnit], &str) = match quantity {
+        Quantity::Voltage => (VOLTAGE_NAMES, VOLTAGE_UNITS, "voltage"),
+        Quantity::Current => (CURRENT_NAMES, CURRENT_UNITS, "current"),
+    };
+    let column = |head: &TableHead, role: &str, aliases: &[&str]| -> Result<Vec<usize>> {
+        Ok(match map.column(head, role)? {
+            Some(c) => vec![c],
+            None => head.find_columns(aliases),
+        })
+    };
+    let header_err = |t: &TableHead, msg: String| t.error(t.header_line, msg);
+    let mut cols = [0usize; 2];
+    let mut scale = [1.0f64; 2];
+    for (k, (aliases, allowed, label)) in [(TIME_NAMES, TIME_UNITS, "time"), (names, units, what)]
+        .into_iter()
+        .enumerate()
+    {
+        let found = column(table, label, aliases)?;
+        let col = match found[..] {
+            [only] => only,
+            [] => {
+                let other = match (quantity, label) {
+                    (Quantity::Voltage, "voltage")
+                        if !table.find_columns(CURRENT_NAMES).is_empty() =>
+                    {
+                        " (this file holds a current: use --voltage-step-v for a potential step)"
+                    }
+                    (Quantity::Current, "current")
+                        if !table.find_columns(VOLTAGE_NAMES).is_empty() =>
+                    {
+                        " (this file holds a voltage: use --current-step-a or --relaxation-current-a)"
+                    }
+                    _ => "",
+                };
+                return Err(header_err(
+                    table,
+                    format!(
+                        "no {label} column found in header \"{}\" (expected e.g. \"{example}\"; \
+                         or choose it with --column {label}=HEADING){other}",
+                        excerpt(&table.header_text)
+                    ),
+                ));
+            }
+            [a, b, ..] => {
+                return Err(header_err(
+                    table,
+                    format!(
+                        "columns \"{}\" and \"{}\" both name the {label} (remove or rename one \
+                         of them, or choose one with --column {label}=HEADING)",
+                        table.column_name(a),
+                        table.column_name(b)
+                    ),
+                ));
+            }
+        };
+        let name = table.column_name(col);
+        let given = map.unit(label);
+        let source = if given.is_some() {
+            format!("--unit {label}")
+        } else {
+            format!("column \"{name}\"")
+        };
+        if let Some(unit) = given.map(str::to_string).or_else(|| split_unit(name).1) {
+            scale[k] = match unit_factor(&unit, allowed) {
+                UnitReading::Factor(f) => f,
+                UnitReading::Ambiguous | UnitReading::Unknown => {
+                    return Err(header_err(
+                        table,
+                        format!(
+                            "unsupported unit \"{unit}\" in {source} (use one of {}; or give \
+                             --unit {label}=UNIT)",
+                            unit_examples(allowed)
+                        ),
+                    ));
+                }
+            };
+        }
+        cols[k] = col;
+    }
+
+    Ok((cols, scale))
 }
 
 #[cfg(test)]
@@ -352,12 +454,18 @@ mod tests {
         );
         assert_eq!(
             err("time_s,current_a\n1,2\n", Quantity::Voltage),
-            "pulse.csv:1: no voltage column found in header \"time_s,current_a\" (expected e.g. \"time_s,voltage_v\") \
-             (this file holds a current: use --voltage-step-v for a potential step)"
+            "pulse.csv:1: no voltage column found in header \"time_s,current_a\" (expected e.g. \"time_s,voltage_v\"; \
+             or choose it with --column voltage=HEADING) (this file holds a current: use --voltage-step-v for a potential step)"
         );
         assert_eq!(
-            err("time (h),voltage_v\n1,2\n", Quantity::Voltage),
-            "pulse.csv:1: unsupported unit \"h\" in column \"time (h)\" (use one of s, ms, us, \u{b5}s, \u{3bc}s, ns)"
+            err("time (d),voltage_v\n1,2\n", Quantity::Voltage),
+            "pulse.csv:1: unsupported unit \"d\" in column \"time (d)\" (use one of s, ms, us, ns, \
+             min, h; or give --unit time=UNIT)"
+        );
+        assert_eq!(
+            err("time_s,U (MV)\n1,2\n", Quantity::Voltage),
+            "pulse.csv:1: unsupported unit \"MV\" in column \"U (MV)\" (use one of V, mV, uV; \
+             or give --unit voltage=UNIT)"
         );
         assert_eq!(
             err(
@@ -375,7 +483,54 @@ mod tests {
         );
         assert_eq!(
             err("t,v,voltage\n1,2,3\n", Quantity::Voltage),
-            "pulse.csv:1: columns \"v\" and \"voltage\" both name the voltage (remove or rename one of them)"
+            "pulse.csv:1: columns \"v\" and \"voltage\" both name the voltage (remove or rename one \
+             of them, or choose one with --column voltage=HEADING)"
         );
+    }
+
+    #[test]
+    fn logger_exports_with_units_commas_and_free_text() {
+        // The same record in s and V, and in min and mV with decimal
+        // commas under a block of free text, bins alike.
+        let mut plain = String::from("time_s,voltage_v\n");
+        let mut logger = String::from("Cell 7, channel 3\nStarted: 09:14\ntime/min;U/mV\n");
+        for k in 1..=400 {
+            let t = 0.01 * f64::from(k);
+            let v = 3.6 + 0.01 * (1.0 - (-t).exp());
+            plain.push_str(&format!("{t},{v}\n"));
+            let line = format!("{};{}\n", t / 60.0, v * 1e3).replace('.', ",");
+            logger.push_str(&line);
+        }
+        let a = parse(&plain, Quantity::Voltage).unwrap();
+        let b = parse(&logger, Quantity::Voltage).unwrap();
+        assert_eq!(a.bins.len(), b.bins.len());
+        for (x, y) in a.bins.iter().zip(&b.bins) {
+            assert_eq!(x.count, y.count);
+            assert!(
+                (x.time_s - y.time_s).abs() <= 1e-9 * x.time_s,
+                "{x:?} {y:?}"
+            );
+            assert!((x.value - y.value).abs() <= 1e-9, "{x:?} {y:?}");
+        }
+        // Columns chosen by the user where the names say nothing.
+        let odd = plain.replacen("time_s,voltage_v", "elapsed,cell", 1);
+        assert!(err(&odd, Quantity::Voltage).contains("no time column"));
+        let mut map = ColumnMap::default();
+        map.add_column("time=elapsed").unwrap();
+        map.add_column("voltage=#2").unwrap();
+        let opts = BinOptions {
+            bins_per_decade: 10.0,
+            ..BinOptions::default()
+        };
+        let c = parse_transient_with(
+            odd.as_bytes(),
+            Path::new("pulse.csv"),
+            Quantity::Voltage,
+            &opts,
+            &map,
+        )
+        .unwrap();
+        assert_eq!(c.bins.len(), a.bins.len());
+        assert_eq!(c.bins[3].value, a.bins[3].value);
     }
 }
