@@ -24,8 +24,14 @@
 //! Every returned `x` is non-negative by construction: a variable leaves `P`
 //! with the value `0.0` and no clamp is applied.
 //!
-//! **Tolerances.** `tol = abs_tol + rel_tol max(|c|_inf, max_j |Q_jj|)` comes
-//! from [`NnlsParams`]. `rho_t` bounds the rounding error of the computed
+//! **Tolerances.** `tol_j = abs_tol + rel_tol sqrt(Q_jj) S`, with
+//! `S = max_i |c_i| / sqrt(Q_ii)` over the columns with curvature, comes
+//! from [`NnlsParams`]. Both `w_j` and `sqrt(Q_jj) S` scale with column `j`,
+//! so the test does not change when one column is rescaled: a series
+//! resistance beside distribution columns carrying a penalty `lambda` of
+//! 1e20 is judged on its own scale, not on the penalty's (common practice
+//! in scaled optimality tests, e.g. Nocedal & Wright 2006, section 2.2 on
+//! scaling). `rho_t` bounds the rounding error of the computed
 //! `w_t = c_t - sum_i Q_ti x_i`, `rho_t = gamma_{p+1} (|c_t| + sqrt(Q_tt)
 //! sum_{i in P} sqrt(Q_ii) x_i)` with `gamma_k = k u / (1 - k u)`, `u = 2^-53`
 //! and `p = |P|` (the dot-product bound `gamma_{p+1} sum |a_i b_i|`, Higham
@@ -65,7 +71,7 @@
 //!   for the rest of the solve, and the status becomes
 //!   [`SolveStatus::Degenerate`] with the largest shift in [`NnlsInfo::shift`].
 //!
-//! A variable whose own curvature is zero, `Q_tt <= eta max_j Q_jj`, with
+//! A variable whose own curvature is zero, `Q_tt <= 0`, with
 //! `w_t > tol + rho_t` makes the problem unbounded ([`SolveStatus::Unbounded`]),
 //! and so does a negative diagonal entry `Q_tt < -eta max_j Q_jj`.
 //!
@@ -142,7 +148,8 @@ pub enum SolveStatus {
 pub struct NnlsParams {
     /// Absolute tolerance on the gradient of a bound variable.
     pub abs_tol: f64,
-    /// Tolerance relative to `max(|c|_inf, max_j |Q_jj|)`.
+    /// Tolerance relative to `sqrt(Q_jj) max_i |c_i| / sqrt(Q_ii)` for
+    /// the gradient of variable `j` (see the module documentation).
     pub rel_tol: f64,
     /// Active-set steps ([`NnlsInfo::iterations`]) before giving up; `None`
     /// means `5 n + 20`.
@@ -198,7 +205,8 @@ pub struct NnlsSolution {
 /// neighbouring regularisation parameter); pass `&[]` for a cold start.
 /// Dual feasibility is accepted when every gradient component of a bound
 /// variable satisfies `c_j - (Qx)_j <= tol` (plus the rounding bound of that
-/// component), with `tol = abs_tol + rel_tol max(|c|_inf, max_j |Q_jj|)`. See
+/// component), with `tol_j = abs_tol + rel_tol sqrt(Q_jj) max_i |c_i| /
+/// sqrt(Q_ii)`. See
 /// the module documentation for the pivot threshold, the handling of singular
 /// subproblems and the anti-cycling rules, and [`SolveStatus`] for what each
 /// outcome returns.
@@ -231,7 +239,8 @@ pub(crate) fn nnls_dense(
         q,
         c: DVector::from_column_slice(c),
         n,
-        tol: 0.0,
+        abs_tol: params.abs_tol,
+        rel_scale: 0.0,
         curv_tol: 0.0,
         sqrt_diag: Vec::new(),
         max_iter: params.max_iter.unwrap_or(5 * n + 20),
@@ -243,15 +252,15 @@ pub(crate) fn nnls_dense(
     if !all_finite(c) || !all_finite(q.as_slice()) {
         return solver.finish(SolveStatus::NonFinite);
     }
-    let scale = solver
-        .c
-        .amax()
-        .max(q.diagonal().amax())
-        .max(f64::MIN_POSITIVE);
-    solver.tol = params.abs_tol + params.rel_tol * scale;
     let diag_max = q.diagonal().iter().fold(0.0_f64, |m, &v| m.max(v));
     solver.curv_tol = piv * diag_max;
     solver.sqrt_diag = q.diagonal().iter().map(|&v| v.max(0.0).sqrt()).collect();
+    // S = max_i |c_i| / sqrt(Q_ii) over the columns with curvature.
+    let s = (0..n)
+        .filter(|&i| q[(i, i)] > 0.0)
+        .map(|i| solver.c[i].abs() / solver.sqrt_diag[i])
+        .fold(0.0_f64, f64::max);
+    solver.rel_scale = params.rel_tol * s;
     if q.diagonal().iter().any(|&v| v < -solver.curv_tol) {
         // Negative curvature along a coordinate: f(alpha e_j) -> -inf.
         return solver.finish(SolveStatus::Unbounded);
@@ -295,8 +304,11 @@ struct Solver<'a> {
     q: &'a DMatrix<f64>,
     c: DVector<f64>,
     n: usize,
-    /// Gradient tolerance `abs_tol + rel_tol scale`.
-    tol: f64,
+    /// Absolute gradient tolerance.
+    abs_tol: f64,
+    /// `rel_tol S`: the relative tolerance of variable `j` is this times
+    /// `sqrt(Q_jj)`.
+    rel_scale: f64,
     /// Curvature `Q_jj` at or below which a column counts as zero.
     curv_tol: f64,
     /// `sqrt(Q_jj)`, for the rounding bound of the gradient.
@@ -334,6 +346,11 @@ enum Entry {
 }
 
 impl Solver<'_> {
+    /// Gradient tolerance of variable `j`: `abs_tol + rel_tol S sqrt(Q_jj)`.
+    fn tol(&self, j: usize) -> f64 {
+        self.abs_tol + self.rel_scale * self.sqrt_diag[j]
+    }
+
     fn column(&self, j: usize) -> &[f64] {
         &self.q.as_slice()[j * self.n..(j + 1) * self.n]
     }
@@ -445,13 +462,18 @@ impl Solver<'_> {
                 }
                 let wj = w[j];
                 // `wj <= tol` first: most bound variables have w_j < 0.
-                if wj <= self.tol || wj <= self.tol + self.noise(j, bound) {
+                let tol = self.tol(j);
+                if wj <= tol || wj <= tol + self.noise(j, bound) {
                     continue;
                 }
                 if !wj.is_finite() {
                     return SolveStatus::NonFinite;
                 }
-                if self.q[(j, j)] <= self.curv_tol {
+                // No curvature at all: a descent along e_j never ends. A
+                // small positive Q_jj is judged by the pivot test instead,
+                // relative to Q_jj itself, so that a column beside heavily
+                // penalised ones is not taken for a zero column.
+                if self.q[(j, j)] <= 0.0 {
                     return SolveStatus::Unbounded;
                 }
                 match barred[j] {
@@ -547,7 +569,7 @@ impl Solver<'_> {
             }
             let order = self.chol.order().to_vec();
             let (rate, noise) = self.descent_rate(t, &order, &p);
-            if rate <= self.tol + noise {
+            if rate <= self.tol(t) + noise {
                 // Numerically dependent column without verifiable descent: the
                 // positive w_t is rounding in x, and t must not enter.
                 return Ok(Entry::Dependent);
@@ -1182,6 +1204,34 @@ mod tests {
         assert!(s.info.kkt_residual <= 1e-14);
     }
 
+    /// A series resistance beside two distribution columns that carry a
+    /// penalty of 1e20: the penalised columns stay at zero and the
+    /// resistance takes the mean of the data, `x_0 = c_0 / Q_00`, however
+    /// large the penalty (by hand: with x_1 = x_2 = 0 the problem in x_0
+    /// alone is min (x_0 - mean b)^2 m / 2). A tolerance scaled by the
+    /// largest diagonal of Q left x_0 at zero with a gradient of 84.
+    #[test]
+    fn unpenalised_column_is_judged_on_its_own_scale() {
+        let b = [12.0, 11.0, 10.5, 10.2, 10.0, 10.0];
+        let m = b.len();
+        let a = DMatrix::from_fn(m, 3, |i, j| match j {
+            0 => 1.0,
+            1 => 1.0 / (1.0 + i as f64),
+            _ => (i as f64 / 5.0).powi(2),
+        });
+        let b = DVector::from_column_slice(&b);
+        let (mut q, c) = problem(&a, &b);
+        for j in 1..3 {
+            q[(j, j)] += 1e20;
+        }
+        let s = nnls_normal(&q, &c, &[]);
+        let mean = b.sum() / m as f64;
+        assert!((s.x[0] - mean).abs() <= 1e-12 * mean, "{:?}", s.x);
+        assert!(s.x[1] < 1e-15 && s.x[2] < 1e-15, "{:?}", s.x);
+        assert_eq!(s.info.status, SolveStatus::Converged);
+        assert!(s.info.kkt_residual <= 1e-9, "{}", s.info.kkt_residual);
+    }
+
     #[test]
     fn lawson_hanson_textbook_style_example() {
         // A = [[1,0],[1,1],[0,1]] (columns), b = (2, 1, -1): unconstrained LS
@@ -1373,14 +1423,24 @@ mod tests {
         assert!((s.x[0] - 0.5).abs() <= 1e-15);
     }
 
-    /// `Q_11 = 1e-20` is zero curvature next to `Q_00 = 1` and `c_1 = 1`:
-    /// unbounded up to rounding, cold or warm started. A warm set holding the
-    /// column must not smuggle it in as passive (it would return
-    /// `x_1 = 1e20` as converged).
+    /// `Q_11 = 1e-20` next to `Q_00 = 1`, with `c_1 = 1`: small curvature
+    /// is still curvature, judged relative to the column itself (a column
+    /// beside penalised ones has a diagonal far below theirs), so the
+    /// minimiser `x = (1, 1e20)` (by hand: `x_j = c_j / Q_jj`) is found,
+    /// cold or warm started. With `Q_11 = 0` exactly the problem is
+    /// unbounded, and a warm set holding that column must not smuggle it in
+    /// as passive.
     #[test]
-    fn zero_curvature_column_in_the_warm_set_is_still_unbounded() {
+    fn small_curvature_is_curvature_and_zero_curvature_is_unbounded() {
         let q = DMatrix::from_row_slice(2, 2, &[1.0, 0.0, 0.0, 1e-20]);
         let c = DVector::from_column_slice(&[1.0, 1.0]);
+        for warm in [&[][..], &[1][..], &[0, 1][..]] {
+            let s = nnls_normal(&q, &c, warm);
+            assert_eq!(s.info.status, SolveStatus::Converged, "warm {warm:?}");
+            assert!((s.x[0] - 1.0).abs() <= 1e-15, "{:?}", s.x);
+            assert!((s.x[1] - 1e20).abs() <= 1e5, "{:?}", s.x);
+        }
+        let q = DMatrix::from_row_slice(2, 2, &[1.0, 0.0, 0.0, 0.0]);
         for warm in [&[][..], &[1][..], &[0, 1][..]] {
             let s = nnls_normal(&q, &c, warm);
             assert_eq!(s.info.status, SolveStatus::Unbounded, "warm {warm:?}");
