@@ -11,6 +11,8 @@ mod errors;
 mod invert;
 #[path = "cli/plots.rs"]
 mod plots;
+#[path = "cli/readers.rs"]
+mod readers;
 #[path = "cli/readme.rs"]
 mod readme;
 #[path = "cli/transient.rs"]
