@@ -109,6 +109,25 @@ pub(crate) struct Solved {
     pub selection: LambdaSelection,
     pub info: SolveInfo,
     pub warm_start: WarmStart,
+    /// `sqrt(||A x - b||^2 / m)` of the final solve (scaled units).
+    pub residual_rms: f64,
+    /// The noise level the discrepancy rule estimates, in the same units,
+    /// when a rule chose lambda (see [`super::select`]).
+    pub noise_rms: Option<f64>,
+}
+
+/// What to tell the user when the distribution sits beyond the band the
+/// data resolve; each front end words it for its measurement.
+pub(crate) struct EdgeHints {
+    /// The fastest time constant the data resolve, named for the user
+    /// (e.g. "1/(2 pi f_max)").
+    pub short_name: &'static str,
+    /// What to do about mass below it.
+    pub short_hint: String,
+    /// The slowest time constant the data resolve, named for the user.
+    pub long_name: &'static str,
+    /// What to do about mass above it.
+    pub long_hint: String,
 }
 
 impl Plan {
@@ -352,17 +371,21 @@ impl Plan {
             solution,
             selection,
             info,
+            noise_rms,
         } = select(problem, &self.opts, split, &to_problem);
         let mut x = vec![0.0; self.ncols()];
         for (k, &j) in keep.iter().enumerate() {
             x[j] = solution.x[k];
         }
         let prediction = problem.predict(&solution.x);
+        let residual_rms = (solution.residual_sq / problem.nrows().max(1) as f64).sqrt();
         Solved {
             x,
             prediction,
             selection,
             info,
+            residual_rms,
+            noise_rms,
             warm_start: WarmStart {
                 free: solution.free.iter().map(|&k| keep[k]).collect(),
             },
@@ -371,7 +394,9 @@ impl Plan {
 
     /// The distribution of the basis coefficients `coeffs` (physical
     /// units), sampled, integrated and split into peaks no smaller than
-    /// `min_area` (0: no absolute limit).
+    /// `min_area` (0: no absolute limit). `warnings` (the front end's)
+    /// lead the result's warnings; the plausibility checks of
+    /// [`plausibility`] follow, worded with `hints`.
     #[allow(clippy::too_many_arguments)]
     pub(crate) fn distribution(
         &self,
@@ -382,6 +407,7 @@ impl Plan {
         residual_rms_rel: f64,
         solved: Solved,
         warnings: Vec<String>,
+        hints: &EdgeHints,
     ) -> Distribution {
         let total = coeffs.iter().sum::<f64>() * self.basis.integral();
         let gamma = self.sampler.evaluate(&coeffs);
@@ -393,7 +419,17 @@ impl Plan {
         let mut warnings = warnings;
         warnings.extend(solved.selection.warning());
         warnings.extend(solved.info.warning());
-        warnings.extend(plausibility(&coeffs, residual_rms_rel, &solved.selection));
+        let edges = edge_shares(&self.sampler.ln_tau, &gamma, self.band_ln_tau);
+        warnings.extend(plausibility(&Evidence {
+            coeffs: &coeffs,
+            residual_rms_rel,
+            lambda: &solved.selection,
+            residual_rms: solved.residual_rms,
+            noise_rms: solved.noise_rms,
+            edges,
+            band_tau_s: (self.band_ln_tau.0.exp(), self.band_ln_tau.1.exp()),
+            hints,
+        }));
         Distribution {
             unit,
             grid: self.grid.clone(),
@@ -423,12 +459,94 @@ impl Plan {
 /// and step records fit a DRT to 1 % or better (common practice).
 pub const RESIDUAL_WARN_REL: f64 = 0.05;
 
-/// Doubts about a result, each with its rule: a distribution that is empty
-/// (every coefficient zero: the series terms alone explain the data), and a
-/// fit whose residual exceeds [`RESIDUAL_WARN_REL`].
-fn plausibility(coeffs: &[f64], residual_rms_rel: f64, lambda: &LambdaSelection) -> Vec<String> {
+/// A residual rms more than this many times the noise level the data show
+/// is far above the noise.
+///
+/// Rule: the discrepancy rule's noise estimate `sigma` (Wahba's
+/// `sigma^2 = ||A x - b||^2 / (m - tr H)` at the GCV minimum; see
+/// [`crate::lambda::gcv::noise_variance`]) is what a fit that explains the
+/// signal leaves; a residual of `3 sigma` rms is a residual sum of squares
+/// of `9 m sigma^2`. For Gaussian noise that sum follows a chi-square
+/// distribution with about `m - tr H` degrees of freedom, whose chance of
+/// reaching 9 times its mean is below 1e-9 already at 10 degrees of freedom
+/// (chi-square tail, e.g. M. Abramowitz, I. A. Stegun (1964), *Handbook of
+/// Mathematical Functions*, ch. 26.4; the factor itself is common
+/// practice). A residual that large means lambda smooths away signal, not
+/// noise.
+pub const NOISE_RATIO_WARN: f64 = 3.0;
+
+/// Below this residual rms (a fraction of the front end's scale) no
+/// measurement's noise is resolved, whatever its ratio to the estimate: a
+/// noise-free synthetic spectrum has an estimate near rounding level
+/// (common practice: 0.1 % is the accuracy of a good instrument channel).
+pub const NOISE_CHECK_MIN_REL: f64 = 1e-3;
+
+/// A share of the distribution's area above this fraction beyond one end
+/// of the band the data resolve is reported.
+///
+/// Rule: the data fix the distribution only inside the band
+/// (`1/(2 pi f_max)` to `1/(2 pi f_min)` for a spectrum, the first sample
+/// after the step to the record length for a transient). Beyond it the
+/// kernel columns are nearly flat: at the short end a process looks like a
+/// series resistance, at the long end like a capacitive branch or a
+/// resistance that has not yet relaxed; the grid's extension is there to
+/// take the tails of processes inside the band (P. C. Hansen et al. (2013),
+/// arXiv:1309.4498), and the extension prior keeps it from absorbing
+/// more. More than 5 % out there means a process the measurement did not
+/// reach (common practice: measure until the arcs close). On the synthetic
+/// cells of `synth::cells` and the demo the share stays below
+/// 1 % (see the tests).
+pub const EDGE_SHARE_WARN: f64 = 0.05;
+
+/// What the plausibility checks look at.
+struct Evidence<'a> {
+    coeffs: &'a [f64],
+    residual_rms_rel: f64,
+    lambda: &'a LambdaSelection,
+    /// Residual rms of the final solve and the noise estimate, in the same
+    /// scaled units.
+    residual_rms: f64,
+    noise_rms: Option<f64>,
+    /// Shares of the area below and above the band.
+    edges: (f64, f64),
+    band_tau_s: (f64, f64),
+    hints: &'a EdgeHints,
+}
+
+/// The shares of the area of the sampled distribution `gamma` (at `ln_tau`,
+/// uniform steps) below `band.0` and above `band.1`; zeros when the
+/// distribution is empty.
+fn edge_shares(ln_tau: &[f64], gamma: &[f64], band: (f64, f64)) -> (f64, f64) {
+    let total: f64 = gamma.iter().sum();
+    if total.partial_cmp(&0.0) != Some(std::cmp::Ordering::Greater) {
+        return (0.0, 0.0);
+    }
+    let part = |keep: &dyn Fn(f64) -> bool| -> f64 {
+        ln_tau
+            .iter()
+            .zip(gamma)
+            .filter(|(y, _)| keep(**y))
+            .map(|(_, g)| g)
+            .sum::<f64>()
+            / total
+    };
+    (part(&|y| y < band.0), part(&|y| y > band.1))
+}
+
+/// Doubts about a result, each with its rule:
+/// - the distribution is empty (every coefficient zero: the series terms
+///   alone explain the data);
+/// - the residual exceeds [`RESIDUAL_WARN_REL`];
+/// - the residual rms exceeds [`NOISE_RATIO_WARN`] times the noise level the
+///   discrepancy rule estimates, when a rule chose lambda (so an estimate
+///   exists), the choice was not raised to the floor (a designed minimum of
+///   smoothing) and the residual is above [`NOISE_CHECK_MIN_REL`];
+/// - more than [`EDGE_SHARE_WARN`] of the area lies beyond either end of the
+///   band the data resolve.
+fn plausibility(e: &Evidence) -> Vec<String> {
     let mut out = Vec::new();
-    if coeffs.iter().all(|c| *c == 0.0) {
+    let lambda = e.lambda;
+    if e.coeffs.iter().all(|c| *c == 0.0) {
         let why = if lambda.rule.is_none() {
             format!(
                 "; the fixed lambda = {:.3e} may be too large",
@@ -441,12 +559,54 @@ fn plausibility(coeffs: &[f64], residual_rms_rel: f64, lambda: &LambdaSelection)
             "the distribution is empty (every coefficient is zero): the fit uses the series terms alone{why}"
         ));
     }
-    if residual_rms_rel > RESIDUAL_WARN_REL {
+    if e.residual_rms_rel > RESIDUAL_WARN_REL {
         out.push(format!(
             "the fit misses the data by {:.1} % rms (more than {:.0} %): the distribution does \
              not describe this measurement; check the data, their signs and the model options",
-            100.0 * residual_rms_rel,
+            100.0 * e.residual_rms_rel,
             100.0 * RESIDUAL_WARN_REL
+        ));
+    }
+    if let (Some(noise), Some(rule)) = (e.noise_rms, lambda.rule)
+        && !lambda.floored
+        && e.residual_rms > NOISE_CHECK_MIN_REL
+        && e.residual_rms > NOISE_RATIO_WARN * noise
+    {
+        out.push(format!(
+            "the residual ({:.2} % rms of the scaled data) is {:.1} times the noise level the \
+             data show around their best fit ({:.2} %; more than {NOISE_RATIO_WARN:.0} times): \
+             lambda = {:.3e} ({rule}) smooths away signal, not only noise; try another rule or \
+             a smaller lambda",
+            100.0 * e.residual_rms,
+            e.residual_rms / noise,
+            100.0 * noise,
+            lambda.lambda
+        ));
+    }
+    let (short, long) = e.edges;
+    let h = e.hints;
+    if short > EDGE_SHARE_WARN {
+        out.push(format!(
+            "{:.1} % of the distribution's area lies at time constants below {:.3e} s ({}), \
+             the fastest the data resolve (more than {:.0} %): it is extrapolated, not \
+             measured; {}",
+            100.0 * short,
+            e.band_tau_s.0,
+            h.short_name,
+            100.0 * EDGE_SHARE_WARN,
+            h.short_hint
+        ));
+    }
+    if long > EDGE_SHARE_WARN {
+        out.push(format!(
+            "{:.1} % of the distribution's area lies at time constants above {:.3e} s ({}), \
+             the slowest the data resolve (more than {:.0} %): it is extrapolated, not \
+             measured; {}",
+            100.0 * long,
+            e.band_tau_s.1,
+            h.long_name,
+            100.0 * EDGE_SHARE_WARN,
+            h.long_hint
         ));
     }
     out
@@ -584,6 +744,143 @@ mod tests {
                 assert_eq!(a.to_bits(), b.to_bits(), "{a} vs {b}");
             }
         }
+    }
+
+    fn rule_selection(floored: bool) -> LambdaSelection {
+        LambdaSelection {
+            lambda: 1e-2,
+            rule: Some(crate::lambda::LambdaRule::Discrepancy),
+            rule_choice: Some(1e-2),
+            floored,
+            grid_edge: None,
+            curves: None,
+        }
+    }
+
+    fn hints() -> EdgeHints {
+        EdgeHints {
+            short_name: "SHORT",
+            short_hint: "short hint".into(),
+            long_name: "LONG",
+            long_hint: "long hint".into(),
+        }
+    }
+
+    /// Evidence of a clean fit: a non-empty distribution, 1 % residual at
+    /// the noise level, nothing beyond the band.
+    fn clean<'a>(lambda: &'a LambdaSelection, hints: &'a EdgeHints) -> Evidence<'a> {
+        Evidence {
+            coeffs: &[0.0, 1.0, 0.0],
+            residual_rms_rel: 0.01,
+            lambda,
+            residual_rms: 0.01,
+            noise_rms: Some(0.01),
+            edges: (0.0, 0.0),
+            band_tau_s: (1e-6, 1.0),
+            hints,
+        }
+    }
+
+    /// The residual-to-noise rule fires above 3 times the estimate, only
+    /// when an estimate exists, the choice was not floored and the residual
+    /// is above 0.1 %; its message gives both numbers.
+    #[test]
+    fn residual_far_above_the_noise_is_reported_at_its_threshold() {
+        let (sel, h) = (rule_selection(false), hints());
+        assert!(plausibility(&clean(&sel, &h)).is_empty());
+        let over = Evidence {
+            residual_rms: 0.031,
+            ..clean(&sel, &h)
+        };
+        let w = plausibility(&over);
+        assert_eq!(w.len(), 1, "{w:?}");
+        assert!(
+            w[0].starts_with(
+                "the residual (3.10 % rms of the scaled data) is 3.1 times the noise level"
+            ),
+            "{}",
+            w[0]
+        );
+        assert!(w[0].contains("(1.00 %; more than 3 times)"), "{}", w[0]);
+        assert!(w[0].contains("(discrepancy)"), "{}", w[0]);
+        let under = Evidence {
+            residual_rms: 0.029,
+            ..clean(&sel, &h)
+        };
+        assert!(plausibility(&under).is_empty());
+        // No estimate (fixed lambda), a floored choice, or a residual under
+        // 0.1 %: no verdict.
+        let none = Evidence {
+            noise_rms: None,
+            ..over
+        };
+        assert!(plausibility(&none).is_empty());
+        let floored = rule_selection(true);
+        assert!(
+            plausibility(&Evidence {
+                lambda: &floored,
+                ..over
+            })
+            .is_empty()
+        );
+        let tiny = Evidence {
+            residual_rms: 9e-4,
+            noise_rms: Some(1e-6),
+            ..clean(&sel, &h)
+        };
+        assert!(plausibility(&tiny).is_empty());
+    }
+
+    /// More than 5 % of the area beyond either end of the band is reported
+    /// with the front end's hint; 5 % or less is not.
+    #[test]
+    fn mass_beyond_the_band_is_reported_at_its_threshold() {
+        let (sel, h) = (rule_selection(false), hints());
+        let at = Evidence {
+            edges: (0.05, 0.05),
+            ..clean(&sel, &h)
+        };
+        assert!(plausibility(&at).is_empty());
+        let short = Evidence {
+            edges: (0.051, 0.0),
+            ..clean(&sel, &h)
+        };
+        let w = plausibility(&short);
+        assert_eq!(
+            w,
+            vec![
+                "5.1 % of the distribution's area lies at time constants below 1.000e-6 s \
+                 (SHORT), the fastest the data resolve (more than 5 %): it is extrapolated, not \
+                 measured; short hint"
+                    .to_string()
+            ]
+        );
+        let long = Evidence {
+            edges: (0.0, 0.2),
+            ..clean(&sel, &h)
+        };
+        let w = plausibility(&long);
+        assert_eq!(w.len(), 1, "{w:?}");
+        assert!(
+            w[0].starts_with(
+                "20.0 % of the distribution's area lies at time constants above 1.000e0 s (LONG)"
+            ),
+            "{}",
+            w[0]
+        );
+        assert!(w[0].ends_with("long hint"), "{}", w[0]);
+    }
+
+    /// The shares are the parts of the sampled area below and above the
+    /// band; an empty distribution has none.
+    #[test]
+    fn edge_shares_split_the_sampled_area() {
+        let y = [0.0, 1.0, 2.0, 3.0, 4.0];
+        let g = [1.0, 2.0, 3.0, 0.0, 4.0];
+        let (lo, hi) = edge_shares(&y, &g, (0.5, 3.5));
+        assert!((lo - 0.1).abs() < 1e-15, "{lo}");
+        assert!((hi - 0.4).abs() < 1e-15, "{hi}");
+        assert_eq!(edge_shares(&y, &[0.0; 5], (0.5, 3.5)), (0.0, 0.0));
     }
 
     #[test]

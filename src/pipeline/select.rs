@@ -27,6 +27,21 @@ pub(crate) struct Selected {
     pub solution: TikhonovSolution,
     pub selection: LambdaSelection,
     pub info: SolveInfo,
+    /// The noise level per equation that the discrepancy rule works with
+    /// (scaled units, see [`noise_rms`]), when a rule traced the path and
+    /// its GCV curve has a minimum; `None` for a fixed lambda.
+    pub noise_rms: Option<f64>,
+}
+
+/// The noise level per equation (rms, in the scaled units of the problem)
+/// that the discrepancy rule uses: Wahba's estimate
+/// `sigma^2 = ||A x - b||^2 / (m - tr H)` at the minimum of the GCV curve
+/// (see [`lambda::discrepancy::curve`] and [`lambda::gcv::noise_variance`]).
+/// `None` when the GCV curve has no finite value.
+fn noise_rms(path: &LambdaPath, rules: &[lambda::RuleCurve]) -> Option<f64> {
+    let gcv = rules.iter().find(|c| c.rule == LambdaRule::Gcv)?;
+    let i = lambda::argmin(&gcv.score)?;
+    Some(lambda::gcv::noise_variance(path, i).sqrt())
 }
 
 /// Chooses `lambda` as `opts` asks and solves at it, warm-started from
@@ -43,6 +58,7 @@ pub(crate) fn select(
 ) -> Selected {
     let mut start: Vec<usize> = warm.to_vec();
     let mut path_status = SolveStatus::Converged;
+    let mut noise = None;
     let selection = match opts.lambda {
         LambdaChoice::Fixed(v) => LambdaSelection {
             lambda: v,
@@ -73,6 +89,7 @@ pub(crate) fn select(
                     }
                 })
                 .collect();
+            noise = noise_rms(&path, &rules);
             let rule_choice = rules.iter().find(|c| c.rule == rule).and_then(|c| c.chosen);
             let (lo, hi) = (lambdas[0], lambdas[lambdas.len() - 1]);
             // The refinement never leaves the grid; a choice within a
@@ -133,5 +150,6 @@ pub(crate) fn select(
         solution,
         selection,
         info,
+        noise_rms: noise,
     }
 }

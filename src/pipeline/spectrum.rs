@@ -25,7 +25,7 @@
 //! frequencies and the options; [`invert`] is a plan used once.
 
 use super::options::DrtOptions;
-use super::plan::Plan;
+use super::plan::{EdgeHints, Plan};
 use super::result::{DistributionUnit, Inversion, SeriesTerms, WarmStart};
 use crate::io::Spectrum;
 use crate::kernel::{Basis, ImpedanceKernel};
@@ -399,6 +399,33 @@ impl SpectrumPlan {
         let mut sorted = modulus;
         sorted.sort_by(f64::total_cmp);
         let min_area = 3.0 * residual_rms_rel * sorted[m / 2];
+        let hints = EdgeHints {
+            short_name: "1/(2 pi f_max)",
+            short_hint: if series.inductance_h.is_some() {
+                "a process faster than the highest frequency, or a high-frequency artefact; \
+                 measure to higher frequencies"
+                    .into()
+            } else {
+                "a process faster than the highest frequency, or a high-frequency artefact; \
+                 measure to higher frequencies, or model the lead inductance with \
+                 --inductance on"
+                    .into()
+            },
+            long_name: "1/(2 pi f_min)",
+            long_hint: if self.col_c.is_some() {
+                "the low-frequency arc does not close inside the band; measure to lower \
+                 frequencies"
+                    .into()
+            } else {
+                "the low-frequency arc does not close inside the band; measure to lower \
+                 frequencies, or, for a blocking electrode (a capacitive low-frequency branch), \
+                 fit a series capacitance with --series-capacitance"
+                    .into()
+            },
+        };
+        let warnings = negative_real_warning(&self.frequency_hz, z_re_ohm)
+            .into_iter()
+            .collect();
         let drt = self.plan.distribution(
             DistributionUnit::Ohm,
             coeffs_ohm,
@@ -406,7 +433,8 @@ impl SpectrumPlan {
             min_area,
             residual_rms_rel,
             solved,
-            Vec::new(),
+            warnings,
+            &hints,
         );
         Ok(Inversion {
             drt,
@@ -418,6 +446,31 @@ impl SpectrumPlan {
             },
         })
     }
+}
+
+/// A warning when the real part is negative anywhere: its count and the
+/// lowest frequency affected.
+///
+/// Rule: the impedance of a passive one-port is a positive-real function,
+/// so `Re Z(omega) >= 0` at every frequency (O. Brune (1931), "Synthesis of
+/// a finite two-terminal network whose driving-point impedance is a
+/// prescribed function of frequency", J. Math. Phys. 10, 191-236). Every
+/// term of the model (`R_inf >= 0`, `gamma >= 0`, inductance, capacitance)
+/// has a non-negative real part, so no fit reaches a negative one. Any
+/// negative value is reported (a sign convention, a swapped column, an
+/// instrument artefact, or an active system); the inversion still runs.
+fn negative_real_warning(frequency_hz: &[f64], z_re_ohm: &[f64]) -> Option<String> {
+    let negative: Vec<usize> = (0..z_re_ohm.len()).filter(|&i| z_re_ohm[i] < 0.0).collect();
+    let &first = negative.first()?;
+    Some(format!(
+        "z_re_ohm is negative at {} of {} frequencies (the lowest at {:.4e} Hz: {:.4e} ohm): \
+         a passive cell has Re Z >= 0 (a positive-real impedance) and no term of the model can \
+         fit these points; check the sign and the order of the impedance columns",
+        negative.len(),
+        z_re_ohm.len(),
+        frequency_hz[first],
+        z_re_ohm[first]
+    ))
 }
 
 /// The scaled regularised problem that [`invert`] solves for this spectrum
@@ -601,6 +654,122 @@ mod tests {
             "{}",
             fine.drt.info.kkt_residual
         );
+    }
+
+    /// The plausibility checks stay quiet on clean synthetic spectra of
+    /// every reference cell (0.2 % noise, default options): no residual
+    /// above the noise, nothing beyond the band, no negative real part.
+    #[test]
+    fn clean_spectra_raise_no_plausibility_warning() {
+        let all = [
+            cells::voigt(),
+            cells::zarc(),
+            cells::two_zarcs(),
+            cells::zarc_plus_voigt(),
+            cells::two_voigts(),
+            cells::finite_warburg(),
+        ];
+        for (k, cell) in all.iter().enumerate() {
+            let s = reference_spectrum(cell, 0.002, k as u64 + 1).unwrap();
+            let inv = invert(&s, &InvertParams::default()).unwrap();
+            assert!(
+                inv.drt.warnings.is_empty(),
+                "cell {k}: {:?}",
+                inv.drt.warnings
+            );
+        }
+    }
+
+    /// Negative real parts are counted and the lowest frequency affected
+    /// is named; the inversion still runs.
+    #[test]
+    fn negative_real_parts_are_reported() {
+        let s = reference_spectrum(&cells::voigt(), 0.0, 1).unwrap();
+        let mut re = s.z_re_ohm.clone();
+        for i in [2, 5, 70] {
+            re[i] = -re[i];
+        }
+        let plan = SpectrumPlan::new(&s.frequency_hz, &InvertParams::default()).unwrap();
+        let inv = plan.invert(&re, &s.z_im_ohm, None).unwrap();
+        let w = &inv.drt.warnings[0];
+        // f[2] = 1e-2 * 10^0.2 Hz; Re Z there = 10 + 50/(1 + (2 pi f 1e-3)^2) ohm.
+        assert!(
+            w.starts_with(
+                "z_re_ohm is negative at 3 of 81 frequencies (the lowest at 1.5849e-2 Hz: \
+                 -6.0000e1 ohm): a passive cell has Re Z >= 0"
+            ),
+            "{w}"
+        );
+        assert_eq!(negative_real_warning(&[1.0, 2.0], &[0.0, 1e-300]), None);
+    }
+
+    /// A capacitive low-frequency branch (a blocking electrode) puts the
+    /// distribution beyond the slowest resolved time constant, with the
+    /// hint to fit a series capacitance, which removes it; a process
+    /// faster than the highest frequency sits below the band.
+    #[test]
+    fn a_distribution_beyond_the_band_is_reported_with_a_hint() {
+        let blocking = Series(vec![
+            Element::Resistor { r_ohm: 10.0 },
+            Element::Voigt {
+                r_ohm: 50.0,
+                tau_s: 1e-3,
+            },
+            Element::Capacitor { c_f: 1e-2 },
+        ]);
+        let s = reference_spectrum(&blocking, 0.001, 7).unwrap();
+        let inv = invert(&s, &InvertParams::default()).unwrap();
+        let long: Vec<&String> = inv
+            .drt
+            .warnings
+            .iter()
+            .filter(|w| w.contains("time constants above 1.592e1 s (1/(2 pi f_min))"))
+            .collect();
+        assert_eq!(long.len(), 1, "{:?}", inv.drt.warnings);
+        assert!(
+            long[0].ends_with("with --series-capacitance"),
+            "{}",
+            long[0]
+        );
+        let with_c = InvertParams {
+            series_capacitance: true,
+            ..InvertParams::default()
+        };
+        let inv = invert(&s, &with_c).unwrap();
+        assert!(inv.drt.warnings.is_empty(), "{:?}", inv.drt.warnings);
+
+        let fast = Series(vec![
+            Element::Resistor { r_ohm: 10.0 },
+            Element::Voigt {
+                r_ohm: 50.0,
+                tau_s: 3e-8,
+            },
+        ]);
+        let s = reference_spectrum(&fast, 0.001, 7).unwrap();
+        let inv = invert(&s, &InvertParams::default()).unwrap();
+        assert_eq!(inv.drt.warnings.len(), 1, "{:?}", inv.drt.warnings);
+        let w = &inv.drt.warnings[0];
+        assert!(
+            w.contains("% of the distribution's area lies at time constants below 1.592e-7 s"),
+            "{w}"
+        );
+        assert!(w.ends_with("--inductance on"), "{w}");
+    }
+
+    /// Magnitudes outside 1e-200..1e200 ohm (denormal ones included) are
+    /// refused, not inverted to NaN.
+    #[test]
+    fn magnitudes_beyond_the_scaling_range_are_refused() {
+        let f = [1.0, 10.0, 100.0, 1000.0];
+        let plan = SpectrumPlan::new(&f, &InvertParams::default()).unwrap();
+        for z in [1e-310, 5e-201, 2e200] {
+            let e = plan
+                .invert(&[z; 4], &[-z / 10.0; 4], None)
+                .unwrap_err()
+                .to_string();
+            assert!(e.starts_with("the largest |Z| is"), "{z}: {e}");
+        }
+        assert!(plan.invert(&[2e-200; 4], &[0.0; 4], None).is_ok());
     }
 
     #[test]

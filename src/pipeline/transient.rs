@@ -59,7 +59,7 @@
 
 use super::binning::{BinnedTransient, MIN_BINS};
 use super::options::DrtOptions;
-use super::plan::Plan;
+use super::plan::{EdgeHints, Plan};
 use super::result::{DistributionUnit, Inversion, SeriesTerms, WarmStart};
 use crate::io::transient::Quantity;
 use crate::kernel::{Basis, StepShape, step::step_kernel_dense};
@@ -244,6 +244,113 @@ fn direction_warning(step: StepKind, y: &[f64]) -> Option<String> {
     })
 }
 
+/// Changes below this many units of double-precision rounding of the
+/// signal's level are refused.
+///
+/// Rule: a value of size `level` is stored to within `level * EPSILON / 2`
+/// (IEEE 754 binary64 rounding), so a change of `k * EPSILON * level` is
+/// resolved in about `k` steps and carries a rounding noise near
+/// `1/(k sqrt 12)` of itself (uniform quantisation). Below `k = 1000` that
+/// noise exceeds 0.03 % of the change, the order of the noise of a good
+/// instrument channel, and the export's decimal digits are usually coarser
+/// still: the distribution would be fitted to rounding (common practice).
+pub const PRECISION_ULPS: f64 = 1e3;
+
+/// The signal level at which a record with no pre-step reference is taken
+/// for absolute values.
+///
+/// Rule: without samples at t < 0 and without `--baseline`, the values of a
+/// step are taken as changes from the pre-step state, so the largest |value|
+/// is `|amplitude| (R_inf + part of R_pol)`. More than 10 times the change
+/// over the record would make `R_inf` more than 9 times the polarisation
+/// the record shows, while in a cell `R_inf` and `R_pol` are usually within a
+/// decade of each other; absolute values (a 3.7 V cell moving by tens of
+/// mV) give ratios of 50 and more (common practice).
+pub const ABSOLUTE_LEVEL_RATIO: f64 = 10.0;
+
+/// The unit of the recorded quantity.
+fn unit_of(step: StepKind) -> &'static str {
+    match step.quantity() {
+        Quantity::Voltage => "V",
+        Quantity::Current => "A",
+    }
+}
+
+/// Refuses a record whose response cannot be told from double-precision
+/// rounding of its level (see [`PRECISION_ULPS`]).
+///
+/// The fit explains `response`, `max |d|` in the measured unit: the largest
+/// departure from the pre-step value `reference` after a step, or the
+/// change of a relaxation from its first to its last value. When it is
+/// computed by subtracting two values of size `level` (the largest |value|
+/// of the bins and of the reference), it is refused below
+/// `PRECISION_ULPS * EPSILON * level`. A step without a reference subtracts
+/// nothing (its values are the changes; a constant record is a pure
+/// resistance, and absolute values there are the business of
+/// [`absolute_level_warning`]), so it is not checked here. A response of
+/// exactly 0 is left to the caller's own message.
+fn check_precision(
+    step: StepKind,
+    values: &[f64],
+    reference: Option<f64>,
+    response: f64,
+) -> Result<()> {
+    let relaxation = matches!(step, StepKind::Relaxation { .. });
+    if response == 0.0 || !(relaxation || reference.is_some()) {
+        return Ok(());
+    }
+    let level = values
+        .iter()
+        .chain(reference.as_ref())
+        .fold(0.0f64, |a, v| a.max(v.abs()));
+    let resolution = PRECISION_ULPS * f64::EPSILON * level;
+    if response >= resolution {
+        return Ok(());
+    }
+    let u = unit_of(step);
+    let from = match reference {
+        Some(r) => format!(" from the pre-step value {r:.4e} {u}"),
+        None => " over the record".to_string(),
+    };
+    Err(Error::Data(format!(
+        "the response does not change beyond double-precision rounding: by {response:.3e} {u}\
+         {from}, against a level of {level:.4e} {u} (less than {PRECISION_ULPS:.0} times the \
+         rounding there, {resolution:.1e} {u}); too small to invert; check the unit of the \
+         values and the number of digits of the export"
+    )))
+}
+
+/// A warning when a step record with no pre-step reference looks like
+/// absolute values (see [`ABSOLUTE_LEVEL_RATIO`]).
+fn absolute_level_warning(step: StepKind, values: &[f64]) -> Option<String> {
+    if matches!(step, StepKind::Relaxation { .. }) {
+        return None;
+    }
+    let (lo, hi) = values
+        .iter()
+        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), v| {
+            (a.min(*v), b.max(*v))
+        });
+    let change = hi - lo;
+    let level = values.iter().fold(0.0f64, |a, v| a.max(v.abs()));
+    if level <= ABSOLUTE_LEVEL_RATIO * change {
+        return None;
+    }
+    let u = unit_of(step);
+    let ratio = if change > 0.0 {
+        format!("{:.0} times", level / change)
+    } else {
+        "infinitely many times".to_string()
+    };
+    Some(format!(
+        "the record has no samples before the step and no --baseline, so its values are taken as \
+         changes from the pre-step state; their level ({level:.4e} {u}) is {ratio} their change \
+         over the record ({change:.3e} {u}; more than {ABSOLUTE_LEVEL_RATIO:.0} times): if these \
+         are absolute values, give the pre-step value with --baseline or include samples before \
+         the step (t < 0)"
+    ))
+}
+
 /// The fit of a transient, one entry per time bin.
 #[derive(Clone, Debug)]
 pub struct TransientFit {
@@ -303,6 +410,9 @@ struct Scaled {
     /// Largest |d_i|, the unit of the unknowns.
     y_scale: f64,
     warnings: Vec<String>,
+    /// Whether the response moves against the step (then a sign, not a
+    /// missing baseline, is the likely fault).
+    against_step: bool,
 }
 
 impl TransientPlan {
@@ -436,8 +546,15 @@ impl TransientPlan {
             0.0
         };
         let d: Vec<f64> = y.iter().map(|v| v - y_ref).collect();
-        let warnings = direction_warning(p.step, &y).into_iter().collect();
+        let direction = direction_warning(p.step, &y);
+        let against_step = direction.is_some();
+        let mut warnings: Vec<String> = direction.into_iter().collect();
+        if baseline.is_none() {
+            warnings.extend(absolute_level_warning(p.step, values));
+        }
         let y_scale = d.iter().fold(0.0f64, |a, v| a.max(v.abs()));
+        let reference = if relaxation { None } else { baseline };
+        check_precision(p.step, values, reference, y_scale * amp.abs())?;
         if !(y_scale > 0.0 && y_scale.is_finite()) {
             return Err(Error::Config(
                 "the response does not change over the record (every bin holds the same value)"
@@ -455,6 +572,7 @@ impl TransientPlan {
             y_ref,
             y_scale,
             warnings,
+            against_step,
         })
     }
 
@@ -556,6 +674,35 @@ impl TransientPlan {
         // A process smaller than ~3 times the fit's residual cannot be told
         // from noise (common practice).
         let min_area = 3.0 * residual_rms_rel * s;
+        let mut warnings = d.warnings;
+        if d.baseline.is_none()
+            && !d.against_step
+            && warnings.is_empty()
+            && explains_nothing(&coeffs, constant, s, residual_rms_rel)
+        {
+            warnings.push(format!(
+                "the fit explains nothing of the record (the instantaneous term and the \
+                 distribution are both about 0, residual {:.1} % rms): the record has no samples \
+                 before the step and no --baseline, so its values are taken as changes from the \
+                 pre-step state; if these are absolute values, give the pre-step value with \
+                 --baseline or include samples before the step (t < 0)",
+                100.0 * residual_rms_rel
+            ));
+        }
+        let hints = EdgeHints {
+            short_name: "the first sample after the step",
+            short_hint: "faster processes cannot be told from the instantaneous response; sample \
+                         faster after the step (or lower --fit-start)"
+                .into(),
+            long_name: "the record length",
+            long_hint: if matches!(step, StepKind::CurrentStep { .. }) && self.col_c.is_none() {
+                "record longer, or, for a blocking electrode (a steady linear drift), fit a \
+                 series capacitance with --series-capacitance"
+                    .into()
+            } else {
+                "record longer".into()
+            },
+        };
         let drt = self.plan.distribution(
             step.unit(),
             coeffs,
@@ -567,7 +714,8 @@ impl TransientPlan {
             min_area,
             residual_rms_rel,
             solved,
-            d.warnings,
+            warnings,
+            &hints,
         );
         Ok(Inversion {
             drt,
@@ -585,6 +733,18 @@ impl TransientPlan {
             },
         })
     }
+}
+
+/// Residual above which a fit with nothing in it has explained nothing.
+const NOTHING_EXPLAINED_REL: f64 = 0.5;
+
+/// Whether a fit explains nothing: every coefficient zero, the constant
+/// below `1e-9` of the response scale `s`, and a residual above
+/// [`NOTHING_EXPLAINED_REL`] of the response (half the record missed).
+fn explains_nothing(coeffs: &[f64], constant: f64, s: f64, residual_rms_rel: f64) -> bool {
+    coeffs.iter().all(|c| *c == 0.0)
+        && constant.abs() <= 1e-9 * s
+        && residual_rms_rel > NOTHING_EXPLAINED_REL
 }
 
 /// The scaled regularised problem that [`invert_transient`] solves (see
@@ -608,8 +768,9 @@ pub fn invert_transient(
 #[cfg(all(test, feature = "synth"))]
 mod tests {
     use super::*;
+    use crate::lambda::{LambdaChoice, LambdaRule};
     use crate::pipeline::binning::BinOptions;
-    use crate::synth::{Element, Series, add_white_noise, log_times};
+    use crate::synth::{Element, Series, add_white_noise, cells, log_times};
 
     fn record(r_ohm: f64, seed: u64, t: &[f64]) -> BinnedTransient {
         let cell = Series(vec![
@@ -654,5 +815,236 @@ mod tests {
         bad.bins[3].value = f64::INFINITY;
         let e = plan.invert(&bad, None).unwrap_err().to_string();
         assert!(e.contains("values[3]"), "{e}");
+    }
+
+    /// `current_a` times the current-step response of `cell` at `t`, plus
+    /// `offset`, with white noise of `sigma` (none when 0).
+    fn step_values(cell: &Series, t: &[f64], current_a: f64, offset: f64, sigma: f64) -> Vec<f64> {
+        let mut v: Vec<f64> = t
+            .iter()
+            .map(|&t| offset + current_a * cell.current_step_ohm(t))
+            .collect();
+        if sigma > 0.0 {
+            add_white_noise(&mut v, sigma, 5);
+        }
+        v
+    }
+
+    fn binned(t: &[f64], v: &[f64]) -> BinnedTransient {
+        BinnedTransient::from_samples(t, v, &BinOptions::default()).unwrap()
+    }
+
+    fn current_step(current_a: f64) -> TransientParams {
+        TransientParams::new(StepKind::CurrentStep { current_a })
+    }
+
+    /// The plausibility checks stay quiet on clean synthetic current steps
+    /// given as changes (no baseline) with 0.2 % noise, for every reference
+    /// cell, default options.
+    #[test]
+    fn clean_transients_raise_no_plausibility_warning() {
+        let t = log_times(1e-6, 10.0, 50.0);
+        let all = [
+            cells::voigt(),
+            cells::zarc(),
+            cells::two_zarcs(),
+            cells::zarc_plus_voigt(),
+            cells::two_voigts(),
+            cells::finite_warburg(),
+        ];
+        for (k, cell) in all.iter().enumerate() {
+            let clean = step_values(cell, &t, 0.1, 0.0, 0.0);
+            let span = clean.iter().fold(0.0f64, |a, v| a.max(v.abs()));
+            let v = step_values(cell, &t, 0.1, 0.0, 2e-3 * span);
+            let inv = invert_transient(&binned(&t, &v), &current_step(0.1)).unwrap();
+            assert!(
+                inv.drt.warnings.is_empty(),
+                "cell {k}: {:?}",
+                inv.drt.warnings
+            );
+        }
+    }
+
+    /// Absolute voltages (a 3.7 V cell) without a baseline: the level is
+    /// far above the change, and the warning gives both and the ratio;
+    /// with pre-step samples the same values raise nothing.
+    #[test]
+    fn absolute_values_without_a_reference_are_reported() {
+        let t = log_times(1e-5, 1.0, 50.0);
+        let cell = cells::two_voigts();
+        // 3.7 V + 0.5 A * (10 + 20 + 30 mohm at most): the change over the
+        // record is 0.5 * 0.05 V at most (2.488e-2 V between the first and
+        // the last bin), the level 3.73 V.
+        let v = step_values(&cell, &t, 0.5, 3.7, 0.0);
+        let inv = invert_transient(&binned(&t, &v), &current_step(0.5)).unwrap();
+        let w = &inv.drt.warnings[0];
+        assert!(
+            w.starts_with(
+                "the record has no samples before the step and no --baseline, so its values are \
+                 taken as changes from the pre-step state; their level (3.7300e0 V) is 150 times \
+                 their change over the record (2.488e-2 V; more than 10 times)"
+            ),
+            "{w}"
+        );
+        assert!(
+            w.ends_with("include samples before the step (t < 0)"),
+            "{w}"
+        );
+        let plan = TransientPlan::new(&binned(&t, &v), &current_step(0.5)).unwrap();
+        let values: Vec<f64> = binned(&t, &v).bins.iter().map(|b| b.value).collect();
+        let inv = plan.invert_values(&values, Some(3.7), None).unwrap();
+        assert!(inv.drt.warnings.is_empty(), "{:?}", inv.drt.warnings);
+        assert!(
+            (inv.drt.total / 0.05 - 1.0).abs() < 0.02,
+            "{}",
+            inv.drt.total
+        );
+        // A level 9.9 times the change is not reported.
+        let v = step_values(&cell, &t, 0.5, 0.0, 0.0);
+        let change = v[v.len() - 1] - v[0];
+        let shifted: Vec<f64> = v
+            .iter()
+            .map(|x| x + 9.9 * change - v[v.len() - 1])
+            .collect();
+        let w = absolute_level_warning(StepKind::CurrentStep { current_a: 0.5 }, &shifted);
+        assert_eq!(w, None);
+        let shifted: Vec<f64> = v
+            .iter()
+            .map(|x| x + 10.1 * change - v[v.len() - 1])
+            .collect();
+        let w = absolute_level_warning(StepKind::CurrentStep { current_a: 0.5 }, &shifted);
+        assert!(w.is_some_and(|w| w.contains("is 10 times")));
+    }
+
+    /// Absolute voltages whose level is not far above their change, taken
+    /// as changes against a discharge step: no non-negative model fits
+    /// them, and the user is told why and what to do.
+    #[test]
+    fn a_fit_that_explains_nothing_suggests_a_baseline() {
+        let t = log_times(1e-5, 1.0, 50.0);
+        // 1.0 V falling by 0.3 V under a 0.1 A discharge: y = v / I runs from
+        // -10 to -7 ohm, the right direction with the wrong sign.
+        let v: Vec<f64> = t
+            .iter()
+            .map(|t| 1.0 - 0.3 * (1.0 - (-t / 1e-3).exp()))
+            .collect();
+        let inv = invert_transient(&binned(&t, &v), &current_step(-0.1)).unwrap();
+        let w: Vec<&String> = inv
+            .drt
+            .warnings
+            .iter()
+            .filter(|w| w.starts_with("the fit explains nothing of the record"))
+            .collect();
+        assert_eq!(w.len(), 1, "{:?}", inv.drt.warnings);
+        assert!(
+            w[0].contains("--baseline or include samples before the step"),
+            "{}",
+            w[0]
+        );
+        assert!(explains_nothing(&[0.0, 0.0], 1e-10, 1.0, 0.51));
+        assert!(!explains_nothing(&[0.0, 0.0], 1e-10, 1.0, 0.49));
+        assert!(!explains_nothing(&[0.0, 0.0], 2e-9, 1.0, 0.9));
+        assert!(!explains_nothing(&[0.0, 1e-3], 0.0, 1.0, 0.9));
+    }
+
+    /// Changes that double precision cannot tell from rounding of the level
+    /// are refused (with a reference, or during a relaxation); a change of
+    /// 2000 rounding units is inverted.
+    #[test]
+    fn changes_below_double_precision_are_refused() {
+        let t = log_times(1e-5, 1.0, 50.0);
+        let level = 3.7;
+        let resolution = PRECISION_ULPS * f64::EPSILON * level;
+        let shape: Vec<f64> = t.iter().map(|t| 1.0 - (-t / 1e-3).exp()).collect();
+        let record = |size: f64| {
+            let v: Vec<f64> = shape.iter().map(|s| level + size * (0.5 + s)).collect();
+            binned(&t, &v)
+        };
+        let mut params = current_step(0.1);
+        params.baseline = Some(level);
+        let e = invert_transient(&record(0.5 * resolution), &params)
+            .unwrap_err()
+            .to_string();
+        assert!(
+            e.starts_with(
+                "the response does not change beyond double-precision rounding: by 6.164e-13 V"
+            ),
+            "{e}"
+        );
+        assert!(
+            e.contains("from the pre-step value 3.7000e0 V, against a level of 3.7000e0 V"),
+            "{e}"
+        );
+        assert!(invert_transient(&record(2.0 * resolution), &params).is_ok());
+        let relax = TransientParams::new(StepKind::Relaxation { current_a: 0.1 });
+        let e = invert_transient(&record(0.5 * resolution), &relax)
+            .unwrap_err()
+            .to_string();
+        assert!(
+            e.contains("over the record, against a level of 3.7000e0 V"),
+            "{e}"
+        );
+        assert!(invert_transient(&record(2.0 * resolution), &relax).is_ok());
+        // Without a reference, the values of a step are the changes.
+        assert!(invert_transient(&record(0.5 * resolution), &current_step(0.1)).is_ok());
+    }
+
+    /// The L-curve over-smooths a noise-free record: its residual is far
+    /// above the noise the data show around their best fit.
+    #[test]
+    fn a_residual_far_above_the_noise_is_reported() {
+        let t = log_times(1e-6, 1.0, 100.0);
+        let v = step_values(&cells::zarc_plus_voigt(), &t, 0.1, 0.0, 0.0);
+        let mut params = current_step(0.1);
+        params.drt.lambda = LambdaChoice::Rule(LambdaRule::Lcurve);
+        let inv = invert_transient(&binned(&t, &v), &params).unwrap();
+        assert_eq!(inv.drt.warnings.len(), 1, "{:?}", inv.drt.warnings);
+        let w = &inv.drt.warnings[0];
+        assert!(
+            w.starts_with("the residual (0.49 % rms of the scaled data) is "),
+            "{w}"
+        );
+        assert!(
+            w.contains("times the noise level the data show around their best fit"),
+            "{w}"
+        );
+        assert!(w.contains("(lcurve) smooths away signal"), "{w}");
+        params.drt.lambda = LambdaChoice::Rule(LambdaRule::Discrepancy);
+        let inv = invert_transient(&binned(&t, &v), &params).unwrap();
+        assert!(inv.drt.warnings.is_empty(), "{:?}", inv.drt.warnings);
+    }
+
+    /// A current step into a blocking electrode drifts linearly to the end
+    /// of the record: the distribution piles up beyond it, and the hint
+    /// names the series capacitance, which removes it.
+    #[test]
+    fn a_distribution_beyond_the_record_is_reported_with_a_hint() {
+        let t = log_times(1e-5, 1.0, 50.0);
+        let blocking = Series(vec![
+            Element::Resistor { r_ohm: 10.0 },
+            Element::Voigt {
+                r_ohm: 50.0,
+                tau_s: 1e-3,
+            },
+            Element::Capacitor { c_f: 1e-2 },
+        ]);
+        let v = step_values(&blocking, &t, 0.1, 0.0, 0.0);
+        let inv = invert_transient(&binned(&t, &v), &current_step(0.1)).unwrap();
+        let w: Vec<&String> = inv
+            .drt
+            .warnings
+            .iter()
+            .filter(|w| w.contains("time constants above 1.000e0 s (the record length)"))
+            .collect();
+        assert_eq!(w.len(), 1, "{:?}", inv.drt.warnings);
+        assert!(
+            w[0].ends_with("fit a series capacitance with --series-capacitance"),
+            "{}",
+            w[0]
+        );
+        let mut params = current_step(0.1);
+        params.series_capacitance = true;
+        let inv = invert_transient(&binned(&t, &v), &params).unwrap();
+        assert!(inv.drt.warnings.is_empty(), "{:?}", inv.drt.warnings);
     }
 }

@@ -377,3 +377,108 @@ fn implausible_results_and_values_are_named() {
     assert_clean_failure(&run, "tiny.csv: the largest |Z| is", dir.path(), "tiny");
     assert!(!run.stderr.contains("NaN"), "{}", run.explain());
 }
+
+/// Writes `name` in `dir` with one `frequency_hz,z_re_ohm,z_im_ohm` row per
+/// frequency from 0.01 Hz to 1 MHz (10 per decade), the impedance given by
+/// `z(f) -> (re, im)`.
+fn write_spectrum(dir: &std::path::Path, name: &str, z: impl Fn(f64) -> (f64, f64)) {
+    let mut s = String::from("frequency_hz,z_re_ohm,z_im_ohm\n");
+    for i in 0..=80 {
+        let f = 1e-2 * 10f64.powf(i as f64 / 10.0);
+        let (re, im) = z(f);
+        s.push_str(&format!("{f},{re},{im}\n"));
+    }
+    std::fs::write(dir.join(name), s).unwrap();
+}
+
+/// Runs `taumap invert NAME --json --no-plots ARGS` and returns the run and
+/// the warnings of its summary.json.
+fn invert_json(
+    dir: &std::path::Path,
+    name: &str,
+    args: &[&str],
+) -> (crate::util::Run, Vec<String>) {
+    let mut all = vec!["invert", name, "--json", "--no-plots"];
+    all.extend_from_slice(args);
+    let run = taumap(dir, &all);
+    assert_eq!(run.code, 0, "{}", run.explain());
+    let json: serde_json::Value = serde_json::from_str(&run.stdout).unwrap();
+    let warnings = json["warnings"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|w| w.as_str().unwrap().to_string())
+        .collect();
+    (run, warnings)
+}
+
+/// Negative real parts (no passive cell has them) are warned about with
+/// their count and the lowest frequency affected, on stderr and in
+/// summary.json; the inversion still runs.
+#[test]
+fn negative_real_parts_are_warned() {
+    let dir = tempdir();
+    let mut csv = String::new();
+    for (i, line) in voigt_csv().lines().enumerate() {
+        // Rows 1 and 2: 0.1 Hz and 0.126 Hz, Re Z = 10 + 50/(1 + (2 pi f 1e-3)^2).
+        if i == 1 || i == 2 {
+            let mut f: Vec<&str> = line.split(',').collect();
+            let neg = format!("-{}", f[1]);
+            f[1] = &neg;
+            csv.push_str(&f.join(","));
+        } else {
+            csv.push_str(line);
+        }
+        csv.push('\n');
+    }
+    std::fs::write(dir.path().join("neg.csv"), csv).unwrap();
+    let (run, warnings) = invert_json(dir.path(), "neg.csv", &[]);
+    let want = "z_re_ohm is negative at 2 of 61 frequencies (the lowest at 1.0000e-1 Hz: \
+                -6.0000e1 ohm): a passive cell has Re Z >= 0";
+    assert!(warnings[0].starts_with(want), "{}", run.explain());
+    assert!(
+        run.stderr.starts_with(&format!("warning: neg.csv: {want}")),
+        "{}",
+        run.explain()
+    );
+}
+
+/// A blocking electrode (10 ohm + Voigt(50 ohm, 1 ms) + 10 mF in series)
+/// measured down to 0.01 Hz: without a series capacitance in the model the
+/// distribution piles up beyond 1/(2 pi f_min), said on stderr and in
+/// summary.json with the option that fixes it; with it, nothing is said.
+#[test]
+fn a_distribution_beyond_the_band_is_warned_with_a_hint() {
+    let dir = tempdir();
+    write_spectrum(dir.path(), "block.csv", |f| {
+        let w = 2.0 * std::f64::consts::PI * f;
+        let x = w * 1e-3;
+        (
+            10.0 + 50.0 / (1.0 + x * x),
+            -50.0 * x / (1.0 + x * x) - 1.0 / (w * 1e-2),
+        )
+    });
+    let (run, warnings) = invert_json(dir.path(), "block.csv", &[]);
+    let edge: Vec<&String> = warnings
+        .iter()
+        .filter(|w| {
+            w.contains("% of the distribution's area lies at time constants above 1.592e1 s")
+        })
+        .collect();
+    assert_eq!(edge.len(), 1, "{}", run.explain());
+    assert!(
+        edge[0].ends_with("fit a series capacitance with --series-capacitance"),
+        "{}",
+        edge[0]
+    );
+    assert!(
+        run.stderr
+            .lines()
+            .any(|l| l == format!("warning: block.csv: {}", edge[0])),
+        "{}",
+        run.explain()
+    );
+    let (run, warnings) = invert_json(dir.path(), "block.csv", &["--series-capacitance"]);
+    assert!(warnings.is_empty(), "{}", run.explain());
+    assert!(run.stderr.is_empty(), "{}", run.explain());
+}

@@ -73,6 +73,9 @@ fn demo_pulse_inverts_to_the_peaks_of_the_demo_spectrum() {
     );
     assert_eq!(s.code, 0, "{}", s.explain());
     let (jt, js) = (json(&t), json(&s));
+    // The demo raises no plausibility warning.
+    assert_eq!(jt["warnings"].as_array().map(Vec::len), Some(0));
+    assert!(t.stderr.is_empty(), "{}", t.explain());
     assert_eq!(jt["unit"], "ohm");
     assert_eq!(jt["baseline_source"], "pre_step_samples");
     let (pt, ps) = (
@@ -348,4 +351,181 @@ fn wrong_sign_warns_and_fit_start_is_recorded() {
     assert_eq!(j["n_skipped_early"], 9);
     assert_eq!(j["settings"]["fit_start_s"], 1e-4);
     assert!((j["r_pol_ohm"].as_f64().unwrap() / 0.02 - 1.0).abs() < 0.03);
+}
+
+/// Writes `name` in `dir`: a `time_s,voltage_v` row per time.
+fn write_record(dir: &std::path::Path, name: &str, t: &[f64], v: &[f64]) {
+    let mut s = String::from("time_s,voltage_v\n");
+    for (t, v) in t.iter().zip(v) {
+        let _ = writeln!(s, "{t},{v}");
+    }
+    std::fs::write(dir.join(name), s).unwrap();
+}
+
+/// Runs `taumap transient NAME --json --no-plots ARGS`, expects success and
+/// returns the run and the warnings of its summary.json.
+fn transient_json(dir: &std::path::Path, name: &str, args: &[&str]) -> (Run, Vec<String>) {
+    let mut all = vec!["transient", name, "--json", "--no-plots"];
+    all.extend_from_slice(args);
+    let run = taumap(dir, &all);
+    assert_eq!(run.code, 0, "{}", run.explain());
+    let warnings = json(&run)["warnings"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|w| w.as_str().unwrap().to_string())
+        .collect();
+    (run, warnings)
+}
+
+/// Absolute voltages where changes were expected: a 3.7 V cell under a
+/// 0.5 A step, logged from the step on without a baseline, is warned about
+/// with the level, the change, their ratio and what to do; with
+/// `--baseline` it inverts cleanly. Absolute values not far above their
+/// change, under a discharge step, fit nothing at all, and the same advice
+/// comes with that verdict.
+#[test]
+fn absolute_values_without_a_baseline_are_warned() {
+    let dir = tempdir();
+    let t = taumap::synth::log_times(1e-5, 1.0, 50.0);
+    let cell = taumap::synth::cells::two_voigts();
+    let v: Vec<f64> = t
+        .iter()
+        .map(|&t| 3.7 + 0.5 * cell.current_step_ohm(t))
+        .collect();
+    write_record(dir.path(), "abs.csv", &t, &v);
+    let (run, warnings) = transient_json(dir.path(), "abs.csv", &["--current-step-a", "0.5"]);
+    let want = "the record has no samples before the step and no --baseline, so its values are \
+                taken as changes from the pre-step state; their level (3.7300e0 V) is 150 times \
+                their change over the record (2.488e-2 V; more than 10 times): if these are \
+                absolute values, give the pre-step value with --baseline or include samples \
+                before the step (t < 0)";
+    assert_eq!(warnings[0], want, "{}", run.explain());
+    assert!(
+        run.stderr
+            .starts_with(&format!("warning: abs.csv: {want}\n")),
+        "{}",
+        run.explain()
+    );
+    let (run, warnings) = transient_json(
+        dir.path(),
+        "abs.csv",
+        &["--current-step-a", "0.5", "--baseline", "3.7"],
+    );
+    assert!(
+        warnings.is_empty() && run.stderr.is_empty(),
+        "{}",
+        run.explain()
+    );
+    assert!((json(&run)["r_pol_ohm"].as_f64().unwrap() / 0.05 - 1.0).abs() < 0.02);
+
+    // 1.0 V falling by 0.3 V under a 0.1 A discharge, read as changes: every
+    // y = v / I is negative and no non-negative model fits it.
+    let v: Vec<f64> = t
+        .iter()
+        .map(|t| 1.0 - 0.3 * (1.0 - (-t / 1e-3).exp()))
+        .collect();
+    write_record(dir.path(), "low.csv", &t, &v);
+    let (run, warnings) = transient_json(dir.path(), "low.csv", &["--current-step-a=-0.1"]);
+    let nothing: Vec<&String> = warnings
+        .iter()
+        .filter(|w| w.starts_with("the fit explains nothing of the record"))
+        .collect();
+    assert_eq!(nothing.len(), 1, "{}", run.explain());
+    assert!(
+        nothing[0].ends_with(
+            "give the pre-step value with --baseline or include samples before the step (t < 0)"
+        ),
+        "{}",
+        nothing[0]
+    );
+    assert!(
+        run.stderr
+            .contains(&format!("warning: low.csv: {}\n", nothing[0])),
+        "{}",
+        run.explain()
+    );
+}
+
+/// A response below what double precision resolves against its level
+/// (3.7 V before the step, 1e-14 V of change after it) is refused with
+/// exit 2, the file named and nothing written.
+#[test]
+fn changes_below_double_precision_are_refused() {
+    let dir = tempdir();
+    let mut t: Vec<f64> = (1..=10).rev().map(|k| -(k as f64) * 1e-4).collect();
+    t.extend(taumap::synth::log_times(1e-5, 1.0, 50.0));
+    let v: Vec<f64> = t
+        .iter()
+        .map(|&t| {
+            if t < 0.0 {
+                3.7
+            } else {
+                3.7 + 1e-14 * (1.0 - (-t / 1e-3).exp())
+            }
+        })
+        .collect();
+    write_record(dir.path(), "tiny.csv", &t, &v);
+    let run = taumap(
+        dir.path(),
+        &[
+            "transient",
+            "tiny.csv",
+            "--current-step-a",
+            "1",
+            "--out",
+            "o",
+        ],
+    );
+    assert_clean_failure(
+        &run,
+        "error: tiny.csv: the response does not change beyond double-precision rounding: by ",
+        dir.path(),
+        "o",
+    );
+    assert!(
+        run.stderr
+            .contains("from the pre-step value 3.7000e0 V, against a level of 3.7000e0 V (less than 1000 times the rounding there, 8.2e-13 V)"),
+        "{}",
+        run.explain()
+    );
+}
+
+/// The L-curve over-smooths a noise-free record of the reference cell
+/// 5 ohm + ZARC(20 ohm, 0.1 ms) + Voigt(30 ohm, 1 ms): the residual is far
+/// above the noise the data show, said with both numbers on stderr and in
+/// summary.json; the default rule on the same record says nothing.
+#[test]
+fn a_residual_far_above_the_noise_is_warned() {
+    let dir = tempdir();
+    let t = taumap::synth::log_times(1e-6, 1.0, 100.0);
+    let cell = taumap::synth::cells::zarc_plus_voigt();
+    let v: Vec<f64> = t.iter().map(|&t| 0.1 * cell.current_step_ohm(t)).collect();
+    write_record(dir.path(), "lc.csv", &t, &v);
+    let (run, warnings) = transient_json(
+        dir.path(),
+        "lc.csv",
+        &["--current-step-a", "0.1", "--lambda", "lcurve"],
+    );
+    assert_eq!(warnings.len(), 1, "{}", run.explain());
+    let w = &warnings[0];
+    assert!(
+        w.starts_with("the residual (0.49 % rms of the scaled data) is "),
+        "{}",
+        run.explain()
+    );
+    assert!(
+        w.contains(
+            "times the noise level the data show around their best fit (0.00 %; more than 3 times)"
+        ),
+        "{}",
+        run.explain()
+    );
+    assert_eq!(run.stderr, format!("warning: lc.csv: {w}\n"));
+    let (run, warnings) = transient_json(dir.path(), "lc.csv", &["--current-step-a", "0.1"]);
+    assert!(
+        warnings.is_empty() && run.stderr.is_empty(),
+        "{}",
+        run.explain()
+    );
 }
