@@ -185,6 +185,70 @@ pub struct BaseUnit {
     pub prefixes: &'static str,
 }
 
+/// Hertz.
+pub const HZ: BaseUnit = BaseUnit {
+    spellings: &["hz"],
+    usual: &["Hz"],
+    factor: 1.0,
+    prefixes: "mkM",
+};
+/// Ohm: the lower case of both omega signs (U+03A9, U+2126) is U+03C9.
+pub const OHM: BaseUnit = BaseUnit {
+    spellings: &["ohm", "ohms", "\u{3c9}"],
+    usual: &["ohm", "Ohm", "ohms", "Ohms", "\u{3a9}", "\u{2126}"],
+    factor: 1.0,
+    prefixes: "umkMG",
+};
+/// Degrees of angle.
+pub const DEGREE: BaseUnit = BaseUnit {
+    spellings: &["deg", "degree", "degrees", "\u{b0}"],
+    usual: &["deg"],
+    factor: 1.0,
+    prefixes: "",
+};
+/// Radians, read as degrees.
+pub const RADIAN: BaseUnit = BaseUnit {
+    spellings: &["rad", "radian", "radians"],
+    usual: &["rad"],
+    factor: 180.0 / std::f64::consts::PI,
+    prefixes: "",
+};
+
+/// Seconds.
+pub const SECOND: BaseUnit = BaseUnit {
+    spellings: &["s", "sec", "second", "seconds"],
+    usual: &["s"],
+    factor: 1.0,
+    prefixes: "mun",
+};
+/// Minutes, read as seconds.
+pub const MINUTE: BaseUnit = BaseUnit {
+    spellings: &["min", "minute", "minutes"],
+    usual: &["min"],
+    factor: 60.0,
+    prefixes: "",
+};
+/// Hours, read as seconds.
+pub const HOUR: BaseUnit = BaseUnit {
+    spellings: &["h", "hour", "hours"],
+    usual: &["h"],
+    factor: 3600.0,
+    prefixes: "",
+};
+/// Volts.
+pub const VOLT: BaseUnit = BaseUnit {
+    spellings: &["v", "volt", "volts"],
+    usual: &["V"],
+    factor: 1.0,
+    prefixes: "mu",
+};
+/// Amperes.
+pub const AMPERE: BaseUnit = BaseUnit {
+    spellings: &["a", "amp", "ampere", "amperes"],
+    usual: &["A"],
+    factor: 1.0,
+    prefixes: "mun",
+};
 /// What [`unit_factor`] made of a unit.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub enum UnitReading {
@@ -266,19 +330,6 @@ pub fn unit_examples(bases: &[BaseUnit]) -> String {
 mod tests {
     use super::*;
     use std::path::Path;
-
-    const HZ: BaseUnit = BaseUnit {
-        spellings: &["hz"],
-        usual: &["Hz"],
-        factor: 1.0,
-        prefixes: "mkM",
-    };
-    const OHM: BaseUnit = BaseUnit {
-        spellings: &["ohm", "ohms", "\u{3c9}"],
-        usual: &["ohm", "Ohm", "ohms", "Ohms", "\u{3a9}", "\u{2126}"],
-        factor: 1.0,
-        prefixes: "umkMG",
-    };
 
     fn f(u: &str, b: &[BaseUnit]) -> UnitReading {
         unit_factor(u, b)

@@ -50,7 +50,9 @@ use std::io::{BufRead, BufReader};
 use std::path::Path;
 
 use crate::error::{Error, Result};
-use crate::io::columns::{BaseUnit, ColumnMap, UnitReading, unit_examples, unit_factor};
+use crate::io::columns::{
+    BaseUnit, ColumnMap, DEGREE, HZ, OHM, RADIAN, UnitReading, unit_examples, unit_factor,
+};
 use crate::io::table::{TableHead, TableReader, TextEncoding, excerpt, split_unit};
 
 /// Minimum number of points a spectrum file must hold.
@@ -159,32 +161,6 @@ const ROLE_NAMES: [&[&str]; 7] = [
     PHASE_NAMES,
     NEG_PHASE_NAMES,
 ];
-
-const HZ: BaseUnit = BaseUnit {
-    spellings: &["hz"],
-    usual: &["Hz"],
-    factor: 1.0,
-    prefixes: "mkM",
-};
-/// Ohm: the lower case of both omega signs (U+03A9, U+2126) is U+03C9.
-const OHM: BaseUnit = BaseUnit {
-    spellings: &["ohm", "ohms", "\u{3c9}"],
-    usual: &["ohm", "Ohm", "ohms", "Ohms", "\u{3a9}", "\u{2126}"],
-    factor: 1.0,
-    prefixes: "umkMG",
-};
-const DEGREE: BaseUnit = BaseUnit {
-    spellings: &["deg", "degree", "degrees", "\u{b0}"],
-    usual: &["deg"],
-    factor: 1.0,
-    prefixes: "",
-};
-const RADIAN: BaseUnit = BaseUnit {
-    spellings: &["rad", "radian", "radians"],
-    usual: &["rad"],
-    factor: 180.0 / std::f64::consts::PI,
-    prefixes: "",
-};
 
 /// Units of each role; same order as [`ROLES`].
 const ROLE_UNITS: [&[BaseUnit]; 7] = [

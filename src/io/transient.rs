@@ -25,7 +25,10 @@ use std::io::{BufRead, BufReader};
 use std::path::Path;
 
 use crate::error::{Error, Result};
-use crate::io::columns::{BaseUnit, ColumnMap, UnitReading, unit_examples, unit_factor};
+use crate::io::columns::{
+    AMPERE, BaseUnit, ColumnMap, HOUR, MINUTE, SECOND, UnitReading, VOLT, unit_examples,
+    unit_factor,
+};
 use crate::io::table::{TableHead, TableReader, excerpt, split_unit};
 use crate::pipeline::binning::{Accumulator, BinOptions, BinnedTransient, MIN_BINS};
 
@@ -60,36 +63,6 @@ const VOLTAGE_NAMES: &[&str] = &[
     "potential_v",
 ];
 const CURRENT_NAMES: &[&str] = &["current_a", "current", "i", "i_a"];
-const SECOND: BaseUnit = BaseUnit {
-    spellings: &["s", "sec", "second", "seconds"],
-    usual: &["s"],
-    factor: 1.0,
-    prefixes: "mun",
-};
-const MINUTE: BaseUnit = BaseUnit {
-    spellings: &["min", "minute", "minutes"],
-    usual: &["min"],
-    factor: 60.0,
-    prefixes: "",
-};
-const HOUR: BaseUnit = BaseUnit {
-    spellings: &["h", "hour", "hours"],
-    usual: &["h"],
-    factor: 3600.0,
-    prefixes: "",
-};
-const VOLT: BaseUnit = BaseUnit {
-    spellings: &["v", "volt", "volts"],
-    usual: &["V"],
-    factor: 1.0,
-    prefixes: "mu",
-};
-const AMPERE: BaseUnit = BaseUnit {
-    spellings: &["a", "amp", "ampere", "amperes"],
-    usual: &["A"],
-    factor: 1.0,
-    prefixes: "mun",
-};
 const TIME_UNITS: &[BaseUnit] = &[SECOND, MINUTE, HOUR];
 const VOLTAGE_UNITS: &[BaseUnit] = &[VOLT];
 const CURRENT_UNITS: &[BaseUnit] = &[AMPERE];
