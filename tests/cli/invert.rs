@@ -326,6 +326,84 @@ fn second_run_into_one_folder_leaves_no_mixed_outputs() {
     );
 }
 
+/// The sequence of the bad-input issue: invert, then transient, then invert
+/// with `--no-plots` into one folder; after each run the folder holds
+/// exactly that run's files (and a file of the user's), nothing else.
+#[test]
+fn each_run_leaves_exactly_its_own_files() {
+    let dir = tempdir();
+    let spectrum = repo_root().join("demo-data/button-cell-700c.csv");
+    let pulse = repo_root().join("demo-data/button-cell-700c-pulse.csv");
+    let out = dir.path().join("out");
+    let o = out.to_str().unwrap();
+    let listing = || {
+        let mut names: Vec<String> = std::fs::read_dir(&out)
+            .unwrap()
+            .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+            .collect();
+        names.sort();
+        names
+    };
+    let plots = |stems: &[&str]| -> Vec<String> {
+        stems
+            .iter()
+            .flat_map(|s| [format!("{s}.png"), format!("{s}.svg")])
+            .collect()
+    };
+    let expect = |mut names: Vec<String>| {
+        names.push("notes.txt".into());
+        names.sort();
+        names
+    };
+    std::fs::create_dir_all(&out).unwrap();
+    std::fs::write(out.join("notes.txt"), "kept").unwrap();
+
+    let run = taumap(
+        dir.path(),
+        &["invert", spectrum.to_str().unwrap(), "--out", o],
+    );
+    assert_eq!(run.code, 0, "{}", run.explain());
+    let mut want: Vec<String> = ["drt.csv", "fit.csv", "lambda.csv", "summary.json"]
+        .map(String::from)
+        .to_vec();
+    want.extend(plots(&["drt", "lambda", "nyquist", "bode"]));
+    assert_eq!(listing(), expect(want));
+
+    let run = taumap(
+        dir.path(),
+        &[
+            "transient",
+            pulse.to_str().unwrap(),
+            "--current-step-a",
+            "-0.1",
+            "--out",
+            o,
+        ],
+    );
+    assert_eq!(run.code, 0, "{}", run.explain());
+    let mut want: Vec<String> = ["drt.csv", "fit.csv", "lambda.csv", "summary.json"]
+        .map(String::from)
+        .to_vec();
+    want.extend(plots(&["drt", "lambda", "transient"]));
+    assert_eq!(listing(), expect(want));
+
+    let run = taumap(
+        dir.path(),
+        &[
+            "invert",
+            spectrum.to_str().unwrap(),
+            "--out",
+            o,
+            "--no-plots",
+        ],
+    );
+    assert_eq!(run.code, 0, "{}", run.explain());
+    let want: Vec<String> = ["drt.csv", "fit.csv", "lambda.csv", "summary.json"]
+        .map(String::from)
+        .to_vec();
+    assert_eq!(listing(), expect(want));
+}
+
 /// Implausible settings and data are said, not printed as numbers: a lambda
 /// so large that the distribution is empty and the fit misses by 70 %, a
 /// negative lambda, magnitudes no scaling can handle.
