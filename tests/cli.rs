@@ -7,6 +7,8 @@ mod util;
 mod developers;
 #[path = "cli/errors.rs"]
 mod errors;
+#[path = "cli/errors_doc.rs"]
+mod errors_doc;
 #[path = "cli/invert.rs"]
 mod invert;
 #[path = "cli/plots.rs"]
