@@ -43,6 +43,15 @@ pub enum InductanceArg {
     Off,
 }
 
+/// Penalty kind on the command line.
+#[derive(Clone, Copy, Debug, ValueEnum)]
+pub enum PenaltyArg {
+    /// One lambda for the whole distribution.
+    Global,
+    /// A weight per grid point (uniform penalty).
+    Adaptive,
+}
+
 /// Weighting on the command line.
 #[derive(Clone, Copy, Debug, ValueEnum)]
 pub enum WeightingArg {
@@ -63,6 +72,11 @@ pub struct SolveArgs {
         allow_negative_numbers = true
     )]
     pub lambda: String,
+    /// Penalty: global (one lambda, by --lambda) or adaptive (a uniform
+    /// penalty with a weight per grid point, refined from the global
+    /// solution; see README).
+    #[arg(long, value_enum, default_value = "global")]
+    pub penalty: PenaltyArg,
     /// Derivative order of the penalty: 0, 1 or 2.
     #[arg(long, value_name = "K", default_value_t = 0)]
     pub penalty_order: usize,

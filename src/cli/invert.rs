@@ -1,12 +1,13 @@
 //! `taumap invert`: spectrum in, DRT, fit, summary and plots out.
 
-use super::args::{BasisArg, InductanceArg, InvertArgs, SolveArgs, WeightingArg};
+use super::args::{BasisArg, InductanceArg, InvertArgs, PenaltyArg, SolveArgs, WeightingArg};
 use super::output::{FORMATS, add_distribution, fixed6, lambda_phrase, output_set, print_warnings};
 use anyhow::{Result, bail};
 use std::path::{Path, PathBuf};
 use taumap::io::Spectrum;
 use taumap::io::spectrum::{SpectrumLayout, read_spectrum_with};
 use taumap::kernel::BasisKind;
+use taumap::pipeline::adaptive::AdaptiveOptions;
 use taumap::pipeline::{
     DrtOptions, InductanceMode, InvertParams, LambdaChoice, LambdaRule, SpectrumInversion,
     Weighting, invert,
@@ -38,6 +39,10 @@ pub fn drt_options_from(solve: &SolveArgs, default_per_decade: f64) -> Result<Dr
         penalty_order: solve.penalty_order,
         lambda,
         all_curves: !solve.no_cv_curve,
+        adaptive: match solve.penalty {
+            PenaltyArg::Global => None,
+            PenaltyArg::Adaptive => Some(AdaptiveOptions::default()),
+        },
         ..DrtOptions::default()
     };
     p.validate()?;

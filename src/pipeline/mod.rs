@@ -21,6 +21,8 @@
 //! - [`plan`]: [`Plan`], the prepared problem on one measurement axis,
 //!   the extension prior and the sampled distribution.
 //! - `select`: the choice of lambda and the final solve (crate-internal).
+//! - [`adaptive`]: the locally adaptive (uniform) penalty that refines the
+//!   global solution.
 //! - [`result`]: [`Distribution`], [`LambdaSelection`], [`SolveInfo`], the
 //!   one result type of every inversion.
 //! - [`spectrum`]: the spectrum front end ([`SpectrumPlan`], [`invert`]).
@@ -32,6 +34,7 @@
 //! magnitude (max |Z| of a spectrum, the largest change of a transient), so
 //! `lambda` is dimensionless and comparable between measurements.
 
+pub mod adaptive;
 pub mod binning;
 pub mod options;
 pub mod plan;

@@ -4,6 +4,7 @@ use crate::grid::TauGrid;
 use crate::kernel::BasisKind;
 use crate::lambda::{LambdaChoice, LambdaGrid, LambdaRule};
 use crate::peaks::PeakOptions;
+use crate::pipeline::adaptive::AdaptiveOptions;
 use crate::solve::NnlsParams;
 use crate::{Error, Result};
 
@@ -46,6 +47,9 @@ pub struct DrtOptions {
     pub extension_prior: f64,
     /// Tolerances and iteration limit of every NNLS solve.
     pub nnls: NnlsParams,
+    /// Locally adaptive (uniform) penalty refining the global solution;
+    /// `None` keeps the global penalty alone.
+    pub adaptive: Option<AdaptiveOptions>,
 }
 
 impl Default for DrtOptions {
@@ -73,6 +77,7 @@ impl Default for DrtOptions {
             oversample: 5,
             extension_prior: 1e-2,
             nnls: NnlsParams::default(),
+            adaptive: None,
         }
     }
 }

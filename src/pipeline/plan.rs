@@ -372,7 +372,7 @@ impl Plan {
             selection,
             info,
             noise_rms,
-        } = select(problem, &self.opts, split, &to_problem);
+        } = select(problem, &self.opts, split, &to_problem, self.n_gamma);
         let mut x = vec![0.0; self.ncols()];
         for (k, &j) in keep.iter().enumerate() {
             x[j] = solution.x[k];

@@ -118,6 +118,12 @@ pub struct SolveInfo {
     pub unknowns: usize,
     /// Effective number of parameters at the final lambda.
     pub dof: f64,
+    /// Weighted solves of the adaptive penalty (`None`: global penalty
+    /// only).
+    pub adaptive_iterations: Option<usize>,
+    /// The adaptive iteration stopped on its change tolerance (false: on
+    /// its iteration limit; also false without the adaptive penalty).
+    pub adaptive_converged: bool,
 }
 
 impl SolveInfo {

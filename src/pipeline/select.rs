@@ -1,6 +1,7 @@
 //! The choice of `lambda` and the final solve, the same for every kind of
 //! measurement.
 
+use super::adaptive;
 use super::options::DrtOptions;
 use super::result::{GridEdge, LambdaSelection, SolveInfo};
 use crate::lambda::{self, LambdaChoice, LambdaCurves, LambdaPath, LambdaRule};
@@ -45,7 +46,10 @@ fn noise_rms(path: &LambdaPath, rules: &[lambda::RuleCurve]) -> Option<f64> {
 }
 
 /// Chooses `lambda` as `opts` asks and solves at it, warm-started from
-/// `warm` (a free set of a neighbouring solution, or empty).
+/// `warm` (a free set of a neighbouring solution, or empty). With
+/// [`DrtOptions::adaptive`], the solution at the chosen lambda is refined
+/// by the uniform penalty on the first `n_gamma` unknowns (the basis
+/// coefficients).
 ///
 /// `cv_split` holds the two blocks of rows that the cross-validation rule
 /// ([`LambdaRule::Recv`]) fits against each other: the real and imaginary
@@ -55,6 +59,7 @@ pub(crate) fn select(
     opts: &DrtOptions,
     cv_split: (&[usize], &[usize]),
     warm: &[usize],
+    n_gamma: usize,
 ) -> Selected {
     let mut start: Vec<usize> = warm.to_vec();
     let mut path_status = SolveStatus::Converged;
@@ -128,8 +133,17 @@ pub(crate) fn select(
             }
         }
     };
-    let solution = problem.solve(selection.lambda, &start);
-    let dof = problem.influence_trace(selection.lambda, &solution.free);
+    let mut solution = problem.solve(selection.lambda, &start);
+    let mut dof = problem.influence_trace(selection.lambda, &solution.free);
+    let mut adaptive_iterations = None;
+    let mut adaptive_converged = false;
+    if let Some(a) = &opts.adaptive {
+        let refined = adaptive::refine(problem, n_gamma, &solution, a);
+        dof = refined.problem.influence_trace(1.0, &refined.solution.free);
+        solution = refined.solution;
+        adaptive_iterations = Some(refined.iterations);
+        adaptive_converged = refined.converged;
+    }
     // A degenerate subproblem at a tiny lambda of the path does not taint
     // the final answer; an iteration limit or a non-finite value does.
     let mut status = solution.info.status;
@@ -145,6 +159,8 @@ pub(crate) fn select(
         equations: problem.nrows(),
         unknowns: problem.ncols(),
         dof,
+        adaptive_iterations,
+        adaptive_converged,
     };
     Selected {
         solution,

@@ -140,6 +140,9 @@ pub struct DrtSettings {
     pub basis: String,
     /// Penalty derivative order.
     pub penalty_order: usize,
+    /// `"global"` (one lambda) or `"adaptive"` (the uniform penalty of
+    /// [`crate::pipeline::adaptive`], refined from the global solution).
+    pub penalty: &'static str,
     /// Grid points per decade.
     pub per_decade: f64,
     /// Grid ends (s).
@@ -159,6 +162,11 @@ impl DrtSettings {
         Self {
             basis: opts.basis.to_string(),
             penalty_order: opts.penalty_order,
+            penalty: if opts.adaptive.is_some() {
+                "adaptive"
+            } else {
+                "global"
+            },
             per_decade: opts.per_decade,
             tau_min_s: tau[0],
             tau_max_s: tau[tau.len() - 1],

@@ -119,6 +119,16 @@ impl Tikhonov {
         Ok(self)
     }
 
+    /// The same problem with another penalty matrix `M` (`n x n`), sharing
+    /// the design, its cross product and the prior.
+    pub(crate) fn with_penalty(&self, penalty: DMatrix<f64>) -> Self {
+        debug_assert_eq!(penalty.nrows(), self.ncols());
+        Self {
+            penalty: Arc::new(penalty),
+            ..self.clone()
+        }
+    }
+
     /// The tolerances of every NNLS solve of this problem.
     #[must_use]
     pub fn with_nnls_params(mut self, params: NnlsParams) -> Self {
