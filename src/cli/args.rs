@@ -82,14 +82,14 @@ pub struct SolveArgs {
     pub penalty_order: usize,
     /// Smallest time constant of the grid (s); default one decade below the
     /// fastest the data resolve (1/(2 pi f_max), or the first sample after a step).
-    #[arg(long, value_name = "S")]
+    #[arg(long, value_name = "S", allow_negative_numbers = true)]
     pub tau_min: Option<f64>,
     /// Largest time constant of the grid (s); default one decade above the
     /// slowest the data resolve (1/(2 pi f_min), or the record length).
-    #[arg(long, value_name = "S")]
+    #[arg(long, value_name = "S", allow_negative_numbers = true)]
     pub tau_max: Option<f64>,
     /// Grid points per decade of tau [default: 10 for spectra, 20 for transients].
-    #[arg(long, value_name = "N")]
+    #[arg(long, value_name = "N", allow_negative_numbers = true)]
     pub per_decade: Option<f64>,
     /// Basis functions.
     #[arg(long, value_enum, default_value = "gaussian")]
@@ -193,10 +193,20 @@ pub struct TransientArgs {
     #[arg(long)]
     pub series_capacitance: bool,
     /// Time bins per decade for the reduction of long records.
-    #[arg(long, value_name = "N", default_value_t = 25.0)]
+    #[arg(
+        long,
+        value_name = "N",
+        default_value_t = 25.0,
+        allow_negative_numbers = true
+    )]
     pub bins_per_decade: f64,
     /// Skip samples before S seconds after the step (settling, lead ringing).
-    #[arg(long, value_name = "S", default_value_t = 0.0)]
+    #[arg(
+        long,
+        value_name = "S",
+        default_value_t = 0.0,
+        allow_negative_numbers = true
+    )]
     pub fit_start: f64,
     /// Time of the step on the file's time axis (s); times are taken relative to it.
     #[arg(

@@ -62,10 +62,12 @@ pub fn default_out_dir(input: &Path) -> PathBuf {
 }
 
 /// Names the input file in an error about its data, but not in an error
-/// about a setting (`--per-decade 1000`), where the file is not at fault.
+/// about a setting (`--per-decade 1000`, `--basis hat --penalty-order 2`:
+/// [`taumap::Error::Param`] and [`taumap::Error::Config`]), where the file
+/// is not at fault.
 pub fn in_file<T>(result: taumap::Result<T>, input: &Path) -> Result<T> {
     result.map_err(|e| match e {
-        taumap::Error::Param { .. } => anyhow::Error::new(e),
+        taumap::Error::Param { .. } | taumap::Error::Config(_) => anyhow::Error::new(e),
         e => anyhow::Error::new(e).context(input.display().to_string()),
     })
 }
@@ -74,6 +76,13 @@ pub fn in_file<T>(result: taumap::Result<T>, input: &Path) -> Result<T> {
 /// input (`-`) has no place of its own, so it needs `--out`.
 pub fn out_dir(input: &Path, out: Option<&Path>) -> Result<PathBuf> {
     match out {
+        // Said before the inversion, not after it.
+        Some(dir) if std::fs::metadata(dir).is_ok_and(|m| !m.is_dir()) => {
+            bail!(
+                "{}: is a file, not a folder (choose another output folder)",
+                dir.display()
+            )
+        }
         Some(dir) => Ok(dir.to_path_buf()),
         None if input == Path::new("-") => {
             bail!("reading standard input (\"-\") needs an output directory: give --out DIR")

@@ -391,8 +391,8 @@ pub fn parse_spectrum_with<R: BufRead>(
             return Err(table.error(
                 row.line,
                 format!(
-                    "more than {MAX_POINTS} points: a spectrum is read whole, and taumap \
-                     reads at most {MAX_POINTS} frequencies (thin the file or split it)"
+                    "more than {MAX_POINTS} points: taumap inverts at most {MAX_POINTS} \
+                     frequencies (thin the file or split it)"
                 ),
             ));
         }
@@ -427,11 +427,18 @@ pub fn parse_spectrum_with<R: BufRead>(
         } else {
             (a, b)
         };
-        if !(f.is_finite() && re.is_finite() && im.is_finite()) {
-            return Err(table.error(
-                row.line,
-                "value out of the range of double precision after unit conversion",
-            ));
+        for (value, col) in [(f, f_col), (a, a_col), (b, b_col)] {
+            if !value.is_finite() {
+                return Err(table.error(
+                    row.line,
+                    format!(
+                        "value \"{}\" (column {}) is out of the range of double precision \
+                         once converted from the column's unit",
+                        excerpt(row.field(col)),
+                        table.column_name(col)
+                    ),
+                ));
+            }
         }
         points.push(Point {
             f,
@@ -540,6 +547,24 @@ fn role_columns(head: &TableHead, map: &ColumnMap) -> Result<[Vec<usize>; 7]> {
     for (k, role) in ROLES.iter().enumerate() {
         chosen[k] = map.column(head, role)?;
     }
+    for (a, ca) in chosen.iter().enumerate() {
+        for (b, cb) in chosen.iter().enumerate().skip(a + 1) {
+            if let (Some(x), Some(y)) = (ca, cb)
+                && x == y
+            {
+                return Err(head.error(
+                    head.header_line,
+                    format!(
+                        "--column {} and --column {} both choose column #{} (\"{}\")",
+                        ROLES[a],
+                        ROLES[b],
+                        x + 1,
+                        head.column_name(*x)
+                    ),
+                ));
+            }
+        }
+    }
     let taken: Vec<usize> = chosen.iter().flatten().copied().collect();
     let mut out: [Vec<usize>; 7] = Default::default();
     for (k, names) in ROLE_NAMES.iter().enumerate() {
@@ -566,11 +591,7 @@ fn names_a_spectrum(head: &TableHead, map: &ColumnMap) -> bool {
 
 fn choose_columns(table: &TableHead, map: &ColumnMap) -> Result<Choice> {
     let header_err = |msg: String| table.error(table.header_line, msg);
-    let looks_numeric = table.header.iter().all(|h| {
-        !h.trim().is_empty()
-            && crate::io::table::parse_finite(table.path.as_path(), 0, h, "", table.decimal_comma())
-                .is_ok()
-    });
+    let looks_numeric = table.looks_like_data();
     if looks_numeric {
         return Err(header_err(format!(
             "\"{}\" looks like data, not a header (add a header line such as \"{CANONICAL_HEADER}\")",
@@ -643,6 +664,13 @@ fn choose_columns(table: &TableHead, map: &ColumnMap) -> Result<Choice> {
         };
         factors[k] = match unit_factor(&unit, bases) {
             UnitReading::Factor(f) => f,
+            _ if given.is_some() => {
+                return Err(Error::Config(format!(
+                    "--unit {}={unit}: not a unit of the {what} (use one of {})",
+                    ROLES[role],
+                    unit_examples(bases)
+                )));
+            }
             UnitReading::Ambiguous => {
                 return Err(header_err(format!(
                     "unit \"{unit}\" in {source} is ambiguous: milli or mega? \
@@ -1025,7 +1053,7 @@ mod tests {
     fn headerless_free_text_and_limits_are_reported() {
         assert_eq!(
             err_text(b"Instrument export\nOperator: A. Smith\n1000,10,-5\n100,11,-6\n"),
-            "cell_a.csv:1: no header line found: lines 1-3 name no frequency and impedance \
+            "cell_a.csv:1: no header line found: lines 1-2 name no frequency and impedance \
              columns, and line 3 already holds numbers (first line read: \"Instrument export\"; \
              expected a header line such as \"frequency_hz,z_re_ohm,z_im_ohm\")"
         );
@@ -1036,8 +1064,8 @@ mod tests {
         assert_eq!(
             err_text(big.as_bytes()),
             format!(
-                "cell_a.csv:{}: more than 100000 points: a spectrum is read whole, and taumap \
-                 reads at most 100000 frequencies (thin the file or split it)",
+                "cell_a.csv:{}: more than 100000 points: taumap inverts at most 100000 \
+                 frequencies (thin the file or split it)",
                 MAX_POINTS + 2
             )
         );
@@ -1047,8 +1075,8 @@ mod tests {
         );
         assert_eq!(
             err_text(long.as_bytes()),
-            "cell_a.csv:2: line is longer than 1048576 bytes (starts \"7777777777777777777777777777777777777777... \
-             (160 characters)\"); a table row is a short line of numbers"
+            "cell_a.csv:2: line is longer than 1048576 bytes (it starts \
+             \"7777777777777777777777777777777777777777...\"); a table row is a short line of numbers"
         );
         assert_eq!(
             err_text(b"PK\x03\x04\x14\x00\x06\x00"),

@@ -304,14 +304,16 @@ impl LineSource {
 
 /// The error for a line longer than [`MAX_LINE_BYTES`], quoting its start.
 fn long_line(path: &Path, line: usize, text: &[u8]) -> Error {
-    let head = String::from_utf8_lossy(&text[..text.len().min(160)]).into_owned();
+    let head: String = String::from_utf8_lossy(&text[..text.len().min(160)])
+        .chars()
+        .take(40)
+        .collect();
     Error::Parse {
         path: path.to_path_buf(),
         line,
         msg: format!(
-            "line is longer than {MAX_LINE_BYTES} bytes (starts \"{}\"); \
-             a table row is a short line of numbers",
-            excerpt(&head)
+            "line is longer than {MAX_LINE_BYTES} bytes (it starts \"{head}...\"); \
+             a table row is a short line of numbers"
         ),
     }
 }
@@ -356,8 +358,13 @@ pub struct NoHeader {
     pub examined: usize,
     /// Physical line number of the last line examined.
     pub last_line: usize,
+    /// Physical line number of the last line of text examined (before the
+    /// line of numbers, when the search stopped at one).
+    pub last_text_line: usize,
     /// The search stopped at a line of numbers (data before any header).
     pub stopped_at_data: bool,
+    /// A line examined held numbers separated by spaces only.
+    pub space_separated: bool,
 }
 
 impl NoHeader {
@@ -372,24 +379,44 @@ impl NoHeader {
     /// names the lines searched and the header expected.
     pub fn error(&self, wanted: &str, example_header: &str) -> Error {
         let first = &self.first;
-        let range = if self.examined == 1 {
+        let range = if first.header_line == self.last_text_line {
             format!("line {}", first.header_line)
         } else {
-            format!("lines {}-{}", first.header_line, self.last_line)
+            format!("lines {}-{}", first.header_line, self.last_text_line)
+        };
+        let verb = if first.header_line == self.last_text_line {
+            "names"
+        } else {
+            "name"
         };
         let stop = if self.stopped_at_data {
             format!(", and line {} already holds numbers", self.last_line)
         } else {
             String::new()
         };
+        let spaces = if self.space_separated {
+            "; columns separated by spaces are not read: use commas, semicolons or tabs"
+        } else {
+            ""
+        };
         first.error(
             first.header_line,
             format!(
-                "no header line found: {range} name no {wanted}{stop} \
-                 (first line read: \"{}\"; expected a header line such as \"{example_header}\")",
+                "no header line found: {range} {verb} no {wanted}{stop} \
+                 (first line read: \"{}\"; expected a header line such as \"{example_header}\"{spaces})",
                 excerpt(&first.header_text)
             ),
         )
+    }
+}
+
+impl TableHead {
+    /// Whether every field of the header reads as a number: a file that
+    /// starts with data and has no header.
+    pub fn looks_like_data(&self) -> bool {
+        self.header
+            .iter()
+            .all(|h| !h.trim().is_empty() && parse_number(h, self.decimal_comma()).is_ok())
     }
 }
 
@@ -426,6 +453,7 @@ impl<R: BufRead> TableReader<R> {
         let mut saw_comment = false;
         let mut first: Option<TableHead> = None;
         let mut last_skipped = 0;
+        let mut space_separated = false;
         let mut examined = 0;
         loop {
             let Some((line_no, text)) = lines.next(&mut reader, path)? else {
@@ -434,7 +462,9 @@ impl<R: BufRead> TableReader<R> {
                         first,
                         examined,
                         last_line: lines.line,
+                        last_text_line: last_skipped,
                         stopped_at_data: false,
+                        space_separated,
                     }));
                 }
                 let msg = if saw_comment {
@@ -487,7 +517,14 @@ impl<R: BufRead> TableReader<R> {
                     lines,
                 }));
             }
-            last_skipped = line_no;
+            let text_before = last_skipped;
+            space_separated |= head.header.len() == 1 && {
+                let tokens: Vec<&str> = trimmed.split_whitespace().collect();
+                tokens.len() >= 2 && tokens.iter().all(|t| parse_number(t, false).is_ok())
+            };
+            if !data_like {
+                last_skipped = line_no;
+            }
             let first_head = first.get_or_insert(head);
             if data_like || examined >= MAX_PREAMBLE_LINES {
                 if let Err(msg) = split_fields(&first_head.header_text, first_head.delimiter) {
@@ -497,7 +534,13 @@ impl<R: BufRead> TableReader<R> {
                     first: first_head.clone(),
                     examined,
                     last_line: line_no,
+                    last_text_line: if data_like {
+                        text_before.max(first_head.header_line)
+                    } else {
+                        line_no
+                    },
                     stopped_at_data: data_like,
+                    space_separated,
                 }));
             }
         }

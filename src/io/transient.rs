@@ -158,6 +158,19 @@ pub fn parse_transient_with<R: BufRead>(
     while let Some(row) = table.next_row()? {
         let t = table.number(&row, cols[0])? * scale[0];
         let v = table.number(&row, cols[1])? * scale[1];
+        for (value, col) in [(t, cols[0]), (v, cols[1])] {
+            if !value.is_finite() {
+                return Err(table.error(
+                    row.line,
+                    format!(
+                        "value \"{}\" (column {}) is out of the range of double precision \
+                         once converted from the column's unit",
+                        excerpt(row.field(col)),
+                        table.column_name(col)
+                    ),
+                ));
+            }
+        }
         if let Some((tp, line)) = prev
             && t <= tp
         {
@@ -216,6 +229,15 @@ fn choose_columns(
 ) -> Result<([usize; 2], [f64; 2])> {
     let table = head;
     let example = quantity.canonical_header();
+    if table.looks_like_data() {
+        return Err(table.error(
+            table.header_line,
+            format!(
+                "\"{}\" looks like data, not a header (add a header line such as \"{example}\")",
+                excerpt(&table.header_text)
+            ),
+        ));
+    }
     let (names, units, what): (&[&str], &[BaseUnit], &str) = match quantity {
         Quantity::Voltage => (VOLTAGE_NAMES, VOLTAGE_UNITS, "voltage"),
         Quantity::Current => (CURRENT_NAMES, CURRENT_UNITS, "current"),
@@ -281,6 +303,12 @@ fn choose_columns(
         if let Some(unit) = given.map(str::to_string).or_else(|| split_unit(name).1) {
             scale[k] = match unit_factor(&unit, allowed) {
                 UnitReading::Factor(f) => f,
+                _ if given.is_some() => {
+                    return Err(Error::Config(format!(
+                        "--unit {label}={unit}: not a unit of the {label} (use one of {})",
+                        unit_examples(allowed)
+                    )));
+                }
                 UnitReading::Ambiguous | UnitReading::Unknown => {
                     return Err(header_err(
                         table,
@@ -294,6 +322,16 @@ fn choose_columns(
             };
         }
         cols[k] = col;
+    }
+    if cols[0] == cols[1] {
+        return Err(table.error(
+            table.header_line,
+            format!(
+                "--column time and --column {what} both choose column #{} (\"{}\")",
+                cols[0] + 1,
+                table.column_name(cols[0])
+            ),
+        ));
     }
 
     Ok((cols, scale))

@@ -136,9 +136,32 @@ impl DrtOptions {
             (None, None) => Ok(default),
             (lo, hi) => {
                 let d = default.tau_s();
+                let (d_lo, d_hi) = (d[0], d[d.len() - 1]);
+                // An override past the other, default end: name the
+                // override, not the default the user never gave.
+                if let (Some(lo), None) = (lo, hi)
+                    && lo >= d_hi
+                {
+                    return Err(Error::Param {
+                        name: "tau-min",
+                        expected: "below the default tau-max (one decade above the slowest time \
+                                   constant the data resolve; give --tau-max to move it)",
+                        value: lo,
+                    });
+                }
+                if let (None, Some(hi)) = (lo, hi)
+                    && hi <= d_lo
+                {
+                    return Err(Error::Param {
+                        name: "tau-max",
+                        expected: "above the default tau-min (one decade below the fastest time \
+                                   constant the data resolve; give --tau-min to move it)",
+                        value: hi,
+                    });
+                }
                 TauGrid::new(
-                    lo.unwrap_or(d[0]),
-                    hi.unwrap_or(d[d.len() - 1]),
+                    lo.unwrap_or(d_lo),
+                    hi.unwrap_or(d_hi),
                     self.per_decade,
                 )
             }

@@ -177,7 +177,7 @@ impl SpectrumPlan {
         params.validate()?;
         let m = frequency_hz.len();
         if m < 3 {
-            return Err(Error::Config(format!(
+            return Err(Error::Data(format!(
                 "need at least 3 frequencies to invert, found {m}"
             )));
         }
@@ -292,13 +292,13 @@ impl SpectrumPlan {
             .collect();
         let z_scale = modulus.iter().copied().fold(0.0, f64::max);
         if z_scale.is_nan() || z_scale <= 0.0 {
-            return Err(Error::Config(
+            return Err(Error::Data(
                 "the impedance is zero at every frequency".into(),
             ));
         }
         // 1/|Z| and the scaled unknowns must stay finite with room to spare.
         if !(Z_RANGE_OHM.0..=Z_RANGE_OHM.1).contains(&z_scale) {
-            return Err(Error::Config(format!(
+            return Err(Error::Data(format!(
                 "the largest |Z| is {z_scale:e} ohm, outside the range taumap can scale \
                  ({:e} to {:e} ohm); check the unit of the impedance columns",
                 Z_RANGE_OHM.0, Z_RANGE_OHM.1

@@ -427,7 +427,7 @@ impl TransientPlan {
         let bins = &record.bins;
         let m = bins.len();
         if m < MIN_BINS {
-            return Err(Error::Config(format!(
+            return Err(Error::Data(format!(
                 "need samples after the step in at least {MIN_BINS} time bins, found {m}"
             )));
         }
@@ -556,7 +556,7 @@ impl TransientPlan {
         let reference = if relaxation { None } else { baseline };
         check_precision(p.step, values, reference, y_scale * amp.abs())?;
         if !(y_scale > 0.0 && y_scale.is_finite()) {
-            return Err(Error::Config(
+            return Err(Error::Data(
                 "the response does not change over the record (every bin holds the same value)"
                     .into(),
             ));
