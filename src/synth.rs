@@ -12,7 +12,14 @@
 //! - S. Havriliak, S. Negami (1967), Polymer 8, 161-210.
 //! - J. R. Macdonald, W. B. Johnson, in E. Barsoukov, J. R. Macdonald (eds.),
 //!   *Impedance Spectroscopy*, 2nd ed. (2005), Wiley, section 2.1 (finite-length
-//!   Warburg element with a transmissive boundary, R tanh(sqrt(j w tau))/sqrt(j w tau)).
+//!   Warburg element with a transmissive boundary, R tanh(sqrt(j w tau))/sqrt(j w tau),
+//!   and with a reflective boundary, R coth(sqrt(j w tau))/sqrt(j w tau)).
+//! - T. Jacobsen, K. West (1995), "Diffusion impedance in planar, cylindrical and
+//!   spherical symmetry", Electrochim. Acta 40(2), 255-262 (both boundaries, and
+//!   the capacitive low-frequency limit of the reflective one).
+//! - M. Abramowitz, I. A. Stegun (1964), *Handbook of Mathematical Functions*,
+//!   section 4.5 (partial-fraction series of tanh and coth, from which the DRT
+//!   lines of both Warburg elements follow; equation numbers not at hand).
 
 use num_complex::Complex64;
 use rand::{Rng, RngExt, SeedableRng};
@@ -72,6 +79,20 @@ pub enum Element {
         /// Diffusion time constant L^2/D (s).
         tau_s: f64,
     },
+    /// Finite-length Warburg element with a reflective (blocking) boundary,
+    /// Z = R coth(sqrt(j w tau)) / sqrt(j w tau) (Barsoukov & Macdonald 2005,
+    /// section 2.1; Jacobsen & West 1995): diffusion into a layer that the
+    /// species cannot leave, such as the particles of an intercalation
+    /// electrode. At low frequency Z -> R/3 + R/(j w tau): a resistance R/3
+    /// in series with the capacitance tau/R (see
+    /// [`Element::capacitance_f`]); the DRT is the set of lines of
+    /// [`Element::lines`], which add up to R/3.
+    WarburgReflective {
+        /// Diffusion resistance R (ohm); the DRT holds R/3 of it.
+        r_ohm: f64,
+        /// Diffusion time constant L^2/D (s).
+        tau_s: f64,
+    },
 }
 
 impl Element {
@@ -102,6 +123,30 @@ impl Element {
                     r_ohm * s.tanh() / s
                 }
             }
+            Element::WarburgReflective { r_ohm, tau_s } => {
+                let s = (jw * tau_s).sqrt();
+                if s.norm() < 1e-4 {
+                    // coth(s)/s = 1/s^2 + 1/3 - s^2/45 + ... (Laurent series of coth).
+                    r_ohm * (1.0 / (s * s) + 1.0 / 3.0 - s * s / 45.0)
+                } else if s.re > 20.0 {
+                    // coth(s) = 1 to double precision; avoids overflow in tanh.
+                    r_ohm / s
+                } else {
+                    r_ohm / (s * s.tanh())
+                }
+            }
+        }
+    }
+
+    /// The capacitance in series with the element's DRT at low frequency
+    /// (farad): `C` for a capacitor, `tau/R` for the reflective Warburg
+    /// element (from the 1/s term of coth(sqrt s)/sqrt s = 1/s + ..., i.e.
+    /// Z -> R/(j w tau); Jacobsen & West 1995); `None` for the others.
+    pub fn capacitance_f(&self) -> Option<f64> {
+        match *self {
+            Element::Capacitor { c_f } => Some(c_f),
+            Element::WarburgReflective { r_ohm, tau_s } => Some(tau_s / r_ohm),
+            _ => None,
         }
     }
 
@@ -141,31 +186,50 @@ impl Element {
         }
     }
 
-    /// Discrete DRT lines `(tau_s, r_ohm)`: one for a Voigt element; for the
-    /// finite Warburg element the first `n` terms of the partial-fraction
-    /// expansion tanh(sqrt s)/sqrt s = sum_n 2/((n - 1/2)^2 pi^2 + s), i.e.
-    /// lines at tau/((n - 1/2)^2 pi^2) with weights 2R/((n - 1/2)^2 pi^2).
+    /// Discrete DRT lines `(tau_s, r_ohm)`, slowest first: one for a Voigt
+    /// element; for the Warburg elements the first `n` terms of the
+    /// partial-fraction series of tanh and coth (Abramowitz & Stegun 1964,
+    /// section 4.5), with s = j w tau:
+    ///
+    /// - transmissive, tanh(sqrt s)/sqrt s = sum_{k>=1} 2/((k - 1/2)^2 pi^2 + s):
+    ///   lines at tau/a_k with weights 2R/a_k, a_k = (k - 1/2)^2 pi^2; they
+    ///   add up to R, and the second, third and fourth are 1/9, 1/25 and 1/49
+    ///   of the first (about 11 %, 4 % and 2 %);
+    /// - reflective, coth(sqrt s)/sqrt s = 1/s + sum_{k>=1} 2/(k^2 pi^2 + s):
+    ///   the capacitive term 1/s (see [`Element::capacitance_f`]) and lines
+    ///   at tau/b_k with weights 2R/b_k, b_k = k^2 pi^2, adding up to
+    ///   2R/pi^2 * pi^2/6 = R/3; the k-th line is 1/k^2 of the first.
+    ///
+    /// The series converge like 1/n: the lines left out hold about
+    /// 2R/(pi^2 n) together.
     pub fn lines(&self, n: usize) -> Vec<(f64, f64)> {
-        match *self {
-            Element::Voigt { r_ohm, tau_s } => vec![(tau_s, r_ohm)],
-            Element::WarburgFinite { r_ohm, tau_s } => (1..=n)
+        let series = |r_ohm: f64, tau_s: f64, offset: f64| {
+            (1..=n)
                 .map(|k| {
-                    let a = ((k as f64 - 0.5) * PI).powi(2);
+                    let a = ((k as f64 - offset) * PI).powi(2);
                     (tau_s / a, 2.0 * r_ohm / a)
                 })
-                .collect(),
+                .collect()
+        };
+        match *self {
+            Element::Voigt { r_ohm, tau_s } => vec![(tau_s, r_ohm)],
+            Element::WarburgFinite { r_ohm, tau_s } => series(r_ohm, tau_s, 0.5),
+            Element::WarburgReflective { r_ohm, tau_s } => series(r_ohm, tau_s, 0.0),
             _ => Vec::new(),
         }
     }
 
-    /// The element's contribution to the polarisation resistance (its
-    /// impedance at w -> 0 minus at w -> inf), for elements with a DRT.
+    /// The element's contribution to the polarisation resistance (the
+    /// integral of its DRT: the real part of its impedance at w -> 0 minus
+    /// at w -> inf), for elements with a DRT; R/3 for the reflective
+    /// Warburg element, whose capacitive branch is not part of it.
     pub fn r_pol_ohm(&self) -> f64 {
         match *self {
             Element::Voigt { r_ohm, .. }
             | Element::Zarc { r_ohm, .. }
             | Element::HavriliakNegami { r_ohm, .. }
             | Element::WarburgFinite { r_ohm, .. } => r_ohm,
+            Element::WarburgReflective { r_ohm, .. } => r_ohm / 3.0,
             _ => 0.0,
         }
     }
@@ -179,24 +243,17 @@ impl Element {
     ///
     /// Voigt: `R exp(-t/tau)`. Finite Warburg: the sum over its lines
     /// `2R/a_k exp(-a_k t/tau)`, `a_k = ((k - 1/2) pi)^2` (the lines of
-    /// [`Element::lines`]). ZARC and Havriliak-Negami: their distributions
+    /// [`Element::lines`]; `a_k = (k pi)^2` for the reflective one, whose
+    /// capacitive branch never relaxes). ZARC and Havriliak-Negami: their distributions
     /// integrated numerically (composite 8-point Gauss-Legendre, 0.05 ln
     /// units per panel, over +-40/phi ln units around tau0, where the
     /// Fuoss-Kirkwood tails are below 1e-13 R). Zero for R, L and C.
     pub fn unrelaxed_ohm(&self, t_s: f64) -> f64 {
         match *self {
             Element::Voigt { r_ohm, tau_s } => r_ohm * (-t_s / tau_s).exp(),
-            Element::WarburgFinite { r_ohm, tau_s } => {
-                let mut sum = 0.0;
-                for k in 1..1_000_000 {
-                    let a = ((k as f64 - 0.5) * PI).powi(2);
-                    let term = 2.0 * r_ohm / a * (-a * t_s / tau_s).exp();
-                    sum += term;
-                    if term < 1e-17 * r_ohm {
-                        break;
-                    }
-                }
-                sum
+            Element::WarburgFinite { r_ohm, tau_s } => warburg_lines_decay(r_ohm, tau_s, 0.5, t_s),
+            Element::WarburgReflective { r_ohm, tau_s } => {
+                warburg_lines_decay(r_ohm, tau_s, 0.0, t_s)
             }
             Element::Zarc { tau_s, phi, .. } => self.integrate_gamma(t_s, tau_s, 40.0 / phi),
             Element::HavriliakNegami {
@@ -227,6 +284,22 @@ impl Element {
     }
 }
 
+/// `sum_k 2R/a_k exp(-a_k t/tau)` over the Warburg lines
+/// `a_k = ((k - offset) pi)^2` (offset 1/2: transmissive, 0: reflective),
+/// summed until a term falls below 1e-17 R.
+fn warburg_lines_decay(r_ohm: f64, tau_s: f64, offset: f64, t_s: f64) -> f64 {
+    let mut sum = 0.0;
+    for k in 1..1_000_000 {
+        let a = ((k as f64 - offset) * PI).powi(2);
+        let term = 2.0 * r_ohm / a * (-a * t_s / tau_s).exp();
+        sum += term;
+        if term < 1e-17 * r_ohm {
+            break;
+        }
+    }
+    sum
+}
+
 /// Elements in series.
 #[derive(Clone, Debug, Default, PartialEq)]
 pub struct Series(pub Vec<Element>);
@@ -243,14 +316,36 @@ impl Series {
         self.0.iter().filter_map(|e| e.gamma_ohm(tau_s)).sum()
     }
 
-    /// Total polarisation resistance.
+    /// Total polarisation resistance (the integral of the DRT; see
+    /// [`Element::r_pol_ohm`]).
     pub fn r_pol_ohm(&self) -> f64 {
         self.0.iter().map(Element::r_pol_ohm).sum()
     }
 
+    /// The DRT lines of all elements ([`Element::lines`] with `n` terms per
+    /// Warburg element), ascending in tau.
+    pub fn lines(&self, n: usize) -> Vec<(f64, f64)> {
+        let mut all: Vec<(f64, f64)> = self.0.iter().flat_map(|e| e.lines(n)).collect();
+        all.sort_by(|a, b| a.0.total_cmp(&b.0));
+        all
+    }
+
+    /// The capacitance in series with the whole DRT (farad): the series
+    /// combination 1/C = sum 1/C_i of [`Element::capacitance_f`]; `None`
+    /// when no element has one.
+    pub fn capacitance_f(&self) -> Option<f64> {
+        let elastance: Vec<f64> = self
+            .0
+            .iter()
+            .filter_map(|e| e.capacitance_f().map(|c| 1.0 / c))
+            .collect();
+        (!elastance.is_empty()).then(|| 1.0 / elastance.iter().sum::<f64>())
+    }
+
     /// Voltage per ampere at `t_s > 0` after a current step from rest at
     /// t = 0 (in ohm): the series resistances, plus each element's relaxed
-    /// part `r_pol - unrelaxed(t)`, plus `t/C` for series capacitors
+    /// part `r_pol - unrelaxed(t)`, plus `t/C` for series capacitors and
+    /// for the capacitive branch of a reflective Warburg element
     /// (superposition of the elements' step responses in series; textbook
     /// network relation). Inductors contribute only at t = 0.
     pub fn current_step_ohm(&self, t_s: f64) -> f64 {
@@ -260,7 +355,10 @@ impl Series {
                 Element::Resistor { r_ohm } => r_ohm,
                 Element::Capacitor { c_f } => t_s / c_f,
                 Element::Inductor { .. } => 0.0,
-                _ => e.r_pol_ohm() - e.unrelaxed_ohm(t_s),
+                _ => {
+                    e.r_pol_ohm() - e.unrelaxed_ohm(t_s)
+                        + e.capacitance_f().map_or(0.0, |c| t_s / c)
+                }
             })
             .sum()
     }
@@ -373,6 +471,70 @@ pub mod cells {
             },
         ])
     }
+
+    /// 10 ohm + ZARC (50 ohm, 1 ms, `phi`): one Fuoss-Kirkwood peak.
+    pub fn zarc_with_phi(phi: f64) -> Series {
+        Series(vec![
+            Element::Resistor { r_ohm: 10.0 },
+            Element::Zarc {
+                r_ohm: 50.0,
+                tau_s: 1e-3,
+                phi,
+            },
+        ])
+    }
+
+    /// 10 ohm + Havriliak-Negami element (50 ohm, 1 ms, alpha 0.8,
+    /// `beta`): one peak, skewed towards short tau for beta < 1.
+    pub fn havriliak_negami(beta: f64) -> Series {
+        Series(vec![
+            Element::Resistor { r_ohm: 10.0 },
+            Element::HavriliakNegami {
+                r_ohm: 50.0,
+                tau_s: 1e-3,
+                alpha: 0.8,
+                beta,
+            },
+        ])
+    }
+
+    /// 10 ohm + two ZARC (phi 0.9) centred on 1 ms, `separation_decades`
+    /// apart, the faster one `r_ratio` times the slower one's 20 ohm.
+    pub fn zarc_pair(separation_decades: f64, r_ratio: f64) -> Series {
+        let half = 10f64.powf(separation_decades / 2.0);
+        Series(vec![
+            Element::Resistor { r_ohm: 10.0 },
+            Element::Zarc {
+                r_ohm: 20.0 * r_ratio,
+                tau_s: 1e-3 / half,
+                phi: 0.9,
+            },
+            Element::Zarc {
+                r_ohm: 20.0,
+                tau_s: 1e-3 * half,
+                phi: 0.9,
+            },
+        ])
+    }
+
+    /// 2 ohm + ZARC (10 ohm, 1 ms, 0.85) + reflective finite-length
+    /// Warburg element (30 ohm, 10 s): a charge-transfer arc and solid-state
+    /// diffusion into finite particles, whose low-frequency branch keeps
+    /// rising like a capacitor of 10/30 F.
+    pub fn reflective_warburg() -> Series {
+        Series(vec![
+            Element::Resistor { r_ohm: 2.0 },
+            Element::Zarc {
+                r_ohm: 10.0,
+                tau_s: 1e-3,
+                phi: 0.85,
+            },
+            Element::WarburgReflective {
+                r_ohm: 30.0,
+                tau_s: 10.0,
+            },
+        ])
+    }
 }
 
 /// The reference sampling of the tests and benchmarks: 1e-2 to 1e6 Hz at 10
@@ -469,31 +631,42 @@ mod tests {
 
     #[test]
     fn zarc_drt_integrates_to_r_and_reproduces_z() {
-        // Fuoss-Kirkwood distribution of the Cole-Cole arc (1941).
-        let e = Element::Zarc {
-            r_ohm: 30.0,
-            tau_s: 1e-3,
-            phi: 0.8,
-        };
-        assert!((integral(&e) - 30.0).abs() < 1e-6);
-        for w in [10.0, 1e3, 1e5] {
-            let (a, b) = (e.impedance(w), z_from_drt(&e, w));
-            assert!((a - b).norm() < 1e-6 * 30.0, "w={w}: {a} vs {b}");
+        // Fuoss-Kirkwood distribution of the Cole-Cole arc (1941), over the
+        // range of phi of the resolution ladder (docs/resolution-ladder.md).
+        for phi in [0.6, 0.8, 0.95] {
+            let e = Element::Zarc {
+                r_ohm: 30.0,
+                tau_s: 1e-3,
+                phi,
+            };
+            assert!((integral(&e) - 30.0).abs() < 1e-6, "phi={phi}");
+            for w in [10.0, 1e3, 1e5] {
+                let (a, b) = (e.impedance(w), z_from_drt(&e, w));
+                assert!((a - b).norm() < 1e-6 * 30.0, "phi={phi} w={w}: {a} vs {b}");
+            }
         }
     }
 
     #[test]
     fn havriliak_negami_drt_reproduces_z() {
-        let e = Element::HavriliakNegami {
-            r_ohm: 10.0,
-            tau_s: 1e-2,
-            alpha: 0.7,
-            beta: 0.6,
-        };
-        assert!((integral(&e) - 10.0).abs() < 1e-5);
-        for w in [1.0, 1e2, 1e4] {
-            let (a, b) = (e.impedance(w), z_from_drt(&e, w));
-            assert!((a - b).norm() < 1e-5 * 10.0, "w={w}: {a} vs {b}");
+        // Havriliak & Negami (1967) distribution against their impedance
+        // Z - R_inf = integral gamma/(1 + j w tau) d ln tau, including the
+        // skewed cases of the resolution ladder (alpha 0.8, beta 0.5-0.8).
+        for (alpha, beta) in [(0.7, 0.6), (0.8, 0.5), (0.8, 0.8)] {
+            let e = Element::HavriliakNegami {
+                r_ohm: 10.0,
+                tau_s: 1e-2,
+                alpha,
+                beta,
+            };
+            assert!((integral(&e) - 10.0).abs() < 1e-5, "{alpha} {beta}");
+            for w in [1.0, 1e2, 1e4] {
+                let (a, b) = (e.impedance(w), z_from_drt(&e, w));
+                assert!(
+                    (a - b).norm() < 1e-5 * 10.0,
+                    "{alpha} {beta} w={w}: {a} vs {b}"
+                );
+            }
         }
     }
 
@@ -515,6 +688,74 @@ mod tests {
         }
         let total: f64 = e.lines(200_000).iter().map(|l| l.1).sum();
         assert!((total - 20.0).abs() < 1e-3);
+        // Secondary lines at 1/9, 1/25, 1/49 of the first.
+        let l = e.lines(4);
+        for (k, want) in [(1, 1.0 / 9.0), (2, 1.0 / 25.0), (3, 1.0 / 49.0)] {
+            assert!((l[k].1 / l[0].1 - want).abs() < 1e-12);
+        }
+    }
+
+    #[test]
+    fn reflective_warburg_lines_and_capacitor_sum_to_impedance() {
+        // Partial fractions of coth(sqrt s)/sqrt s = 1/s + sum 2/(k^2 pi^2 + s)
+        // (Abramowitz & Stegun 1964, section 4.5): the capacitor tau/R in
+        // series with lines that add up to R/3 (Jacobsen & West 1995).
+        let e = Element::WarburgReflective {
+            r_ohm: 30.0,
+            tau_s: 2.0,
+        };
+        let c_f = e
+            .capacitance_f()
+            .expect("reflective Warburg has a capacitive branch");
+        assert!((c_f - 2.0 / 30.0).abs() < 1e-15);
+        let lines = e.lines(200_000);
+        for w in [1e-3, 0.1, 1.0, 30.0] {
+            let z: Complex64 = lines
+                .iter()
+                .map(|&(t, r)| r / (1.0 + Complex64::new(0.0, w * t)))
+                .sum::<Complex64>()
+                + 1.0 / Complex64::new(0.0, w * c_f);
+            assert!((z - e.impedance(w)).norm() < 1e-4 * 30.0, "w={w}");
+        }
+        let total: f64 = lines.iter().map(|l| l.1).sum();
+        assert!((total - 10.0).abs() < 1e-3);
+        assert!((e.r_pol_ohm() - 10.0).abs() < 1e-12);
+        // Low-frequency limit R/3 + R/(j w tau), on both sides of the switch
+        // to the Laurent series (|sqrt(j w tau)| = 1e-4).
+        for w in [1e-6, 1e-10] {
+            let z = e.impedance(w) - 1.0 / Complex64::new(0.0, w * c_f);
+            assert!((z - Complex64::new(10.0, 0.0)).norm() < 1e-4, "w={w}: {z}");
+        }
+        // The k-th line is 1/k^2 of the first, at tau/(k pi)^2.
+        assert!((lines[0].0 - 2.0 / (PI * PI)).abs() < 1e-15);
+        assert!((lines[1].1 / lines[0].1 - 0.25).abs() < 1e-12);
+        // High frequency: semi-infinite diffusion R/sqrt(j w tau).
+        let w = 1e6;
+        let want = 30.0 / Complex64::new(0.0, w * 2.0).sqrt();
+        assert!((e.impedance(w) - want).norm() < 1e-12 * want.norm());
+    }
+
+    /// Step response of the reflective Warburg element: at short times
+    /// semi-infinite diffusion, 2 R sqrt(t/(pi tau)) (A&S 29.3.4, as for the
+    /// transmissive one); at long times the low-frequency form
+    /// R/3 + R/(s tau) gives R/3 + R t/tau, less the slowest line's
+    /// 2R/pi^2 exp(-pi^2 t/tau).
+    #[test]
+    fn reflective_warburg_step_response_limits() {
+        let s = Series(vec![Element::WarburgReflective {
+            r_ohm: 1.0,
+            tau_s: 1.0,
+        }]);
+        for t in [1e-6, 1e-4] {
+            let want = 2.0 * (t / PI).sqrt();
+            let got = s.current_step_ohm(t);
+            assert!((got / want - 1.0).abs() < 1e-6, "t={t}: {got} vs {want}");
+        }
+        let t = 0.5;
+        let want = 1.0 / 3.0 + t - 2.0 / (PI * PI) * (-PI * PI * t).exp();
+        let got = s.current_step_ohm(t);
+        assert!((got - want).abs() < 1e-6, "{got} vs {want}");
+        assert!((s.capacitance_f().expect("has a capacitor") - 1.0).abs() < 1e-15);
     }
 
     #[test]
