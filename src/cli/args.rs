@@ -35,7 +35,7 @@ pub enum BasisArg {
 /// Inductance mode on the command line.
 #[derive(Clone, Copy, Debug, ValueEnum)]
 pub enum InductanceArg {
-    /// On when the two highest frequencies show Z'' > 0.
+    /// Kept when the data need it (likelihood-ratio test).
     Auto,
     /// Always fitted.
     On,
@@ -50,6 +50,17 @@ pub enum PenaltyArg {
     Global,
     /// A weight per grid point (uniform penalty).
     Adaptive,
+}
+
+/// Series capacitance mode on the command line.
+#[derive(Clone, Copy, Debug, ValueEnum)]
+pub enum CapacitanceArg {
+    /// Kept when the data need it.
+    Auto,
+    /// Always fitted.
+    On,
+    /// Never fitted.
+    Off,
 }
 
 /// Weighting on the command line.
@@ -147,9 +158,18 @@ pub struct InvertArgs {
     /// Series inductance.
     #[arg(long, value_enum, default_value = "auto")]
     pub inductance: InductanceArg,
-    /// Also fit a series capacitance (blocking electrodes).
-    #[arg(long)]
-    pub series_capacitance: bool,
+    /// Series capacitance (blocking electrodes): auto keeps it when the
+    /// fit needs it (a capacitive low-frequency branch); the flag alone
+    /// means on.
+    #[arg(
+        long,
+        value_enum,
+        default_value = "auto",
+        num_args = 0..=1,
+        default_missing_value = "on",
+        value_name = "auto|on|off"
+    )]
+    pub series_capacitance: CapacitanceArg,
     /// Residual weighting.
     #[arg(long, value_enum, default_value = "modulus")]
     pub weighting: WeightingArg,

@@ -1,6 +1,8 @@
 //! `taumap invert`: spectrum in, DRT, fit, summary and plots out.
 
-use super::args::{BasisArg, InductanceArg, InvertArgs, PenaltyArg, SolveArgs, WeightingArg};
+use super::args::{
+    BasisArg, CapacitanceArg, InductanceArg, InvertArgs, PenaltyArg, SolveArgs, WeightingArg,
+};
 use super::output::{FORMATS, add_distribution, fixed6, lambda_phrase, output_set, print_warnings};
 use anyhow::{Result, bail};
 use std::path::{Path, PathBuf};
@@ -9,8 +11,8 @@ use taumap::io::spectrum::{SpectrumLayout, read_spectrum_with};
 use taumap::kernel::BasisKind;
 use taumap::pipeline::adaptive::AdaptiveOptions;
 use taumap::pipeline::{
-    DrtOptions, InductanceMode, InvertParams, LambdaChoice, LambdaRule, SpectrumInversion,
-    Weighting, invert,
+    CapacitanceMode, DrtOptions, InductanceMode, InvertParams, LambdaChoice, LambdaRule,
+    SpectrumInversion, Weighting, invert,
 };
 use taumap::plot;
 use taumap::report::{self, Summary};
@@ -129,7 +131,11 @@ pub fn run(a: &InvertArgs) -> Result<()> {
             WeightingArg::Modulus => Weighting::Modulus,
             WeightingArg::Unit => Weighting::Unit,
         },
-        series_capacitance: a.series_capacitance,
+        series_capacitance: match a.series_capacitance {
+            CapacitanceArg::Auto => CapacitanceMode::Auto,
+            CapacitanceArg::On => CapacitanceMode::On,
+            CapacitanceArg::Off => CapacitanceMode::Off,
+        },
     };
     let out = out_dir(&a.input, a.out.as_deref())?;
     let (spectrum, layout) = read_spectrum_with(&a.input, &a.columns.map()?)?;
@@ -153,6 +159,15 @@ pub fn run(a: &InvertArgs) -> Result<()> {
         !a.solve.no_plots,
         reader_warnings,
     )?;
+    if params.series_capacitance == CapacitanceMode::Auto
+        && let Some(c) = summary.series_capacitance_f
+    {
+        eprintln!(
+            "note: {}: the fit needs a series capacitance (a capacitive low-frequency branch): \
+             C = {c:.3e} F, kept by the significance test (--series-capacitance off to leave it out)",
+            a.input.display()
+        );
+    }
     report_run(&summary, &out, &written, a.solve.json)
 }
 

@@ -51,8 +51,8 @@ pub use result::{
     WarmStart,
 };
 pub use spectrum::{
-    InductanceMode, InvertParams, SpectrumFit, SpectrumInversion, SpectrumPlan, Weighting, invert,
-    looks_inductive,
+    CapacitanceMode, InductanceMode, InvertParams, LR_THRESHOLD, SpectrumFit, SpectrumInversion,
+    SpectrumPlan, Weighting, invert, looks_inductive,
 };
 pub use transient::{
     BaselineSource, StepKind, TRANSIENT_PER_DECADE, TransientFit, TransientInversion,

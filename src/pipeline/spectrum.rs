@@ -25,7 +25,7 @@
 //! frequencies and the options; [`invert`] is a plan used once.
 
 use super::options::DrtOptions;
-use super::plan::{EdgeHints, Plan};
+use super::plan::{EdgeHints, Plan, Solved};
 use super::result::{DistributionUnit, Inversion, SeriesTerms, WarmStart};
 use crate::io::Spectrum;
 use crate::kernel::{Basis, ImpedanceKernel};
@@ -47,13 +47,41 @@ pub enum Weighting {
 #[derive(Clone, Copy, Debug, PartialEq, Eq, serde::Serialize)]
 #[serde(rename_all = "lowercase")]
 pub enum InductanceMode {
-    /// On when the highest two frequencies both show Z'' > 0.
+    /// Kept when it improves the fit significantly (the likelihood-ratio
+    /// test of [`LR_THRESHOLD`]).
     Auto,
     /// Always fitted.
     On,
     /// Never fitted.
     Off,
 }
+
+/// Whether a series capacitance (blocking electrode) is part of the model.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, serde::Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum CapacitanceMode {
+    /// Kept when it improves the fit significantly (the likelihood-ratio
+    /// test of [`LR_THRESHOLD`]): on for a capacitive low-frequency branch
+    /// that no finite time constant of the grid can fit.
+    Auto,
+    /// Always fitted.
+    On,
+    /// Never fitted.
+    Off,
+}
+
+/// The likelihood-ratio statistic above which a series term (inductance,
+/// series capacitance) in automatic mode stays in the model: the 0.999
+/// quantile of the chi-square distribution with one degree of freedom,
+/// 10.83 (one nested parameter: S. S. Wilks, Ann. Math. Statist. 9, 60-62,
+/// 1938; quantile from Abramowitz & Stegun, table 26.8). With
+/// `RSS_0` the weighted residual of the full model at the chosen lambda
+/// and `RSS_t` that of the model without term `t`, the statistic is
+/// `(RSS_t - RSS_0) / sigma^2`, `sigma^2 = RSS_0 / (rows - dof)` the
+/// residual variance of the full model (dof: the effective number of
+/// parameters). A strict level, because the regularised fit is not an
+/// exact maximum-likelihood fit.
+pub const LR_THRESHOLD: f64 = 10.83;
 
 /// Parameters of an inversion: the shared [`DrtOptions`] and the
 /// spectrum's own model choices. See [`InvertParams::default`].
@@ -65,19 +93,19 @@ pub struct InvertParams {
     pub weighting: Weighting,
     /// Series inductance.
     pub inductance: InductanceMode,
-    /// Fit a series capacitance (blocking electrodes).
-    pub series_capacitance: bool,
+    /// Series capacitance (blocking electrodes).
+    pub series_capacitance: CapacitanceMode,
 }
 
 impl Default for InvertParams {
-    /// [`DrtOptions::default`], modulus weighting, automatic inductance, no
+    /// [`DrtOptions::default`], modulus weighting, automatic inductance and
     /// series capacitance.
     fn default() -> Self {
         Self {
             drt: DrtOptions::default(),
             weighting: Weighting::Modulus,
             inductance: InductanceMode::Auto,
-            series_capacitance: false,
+            series_capacitance: CapacitanceMode::Auto,
         }
     }
 }
@@ -157,8 +185,10 @@ pub struct SpectrumPlan {
 
 /// A response turned into the plan's scaled problem.
 struct Scaled {
-    problem: Tikhonov,
-    dropped: Vec<usize>,
+    /// Weighted, scaled right-hand side.
+    b: Vec<f64>,
+    /// Row factors of the design when they depend on the response.
+    row_scale: Option<Vec<f64>>,
     /// Weight of each frequency (`b_i = w_i z_i`).
     weight: Vec<f64>,
     /// |Z_i| (ohm).
@@ -212,7 +242,8 @@ impl SpectrumPlan {
             );
             n_gamma + series.len() - 1
         });
-        let col_c = params.series_capacitance.then(|| {
+        let with_c = !matches!(params.series_capacitance, CapacitanceMode::Off);
+        let col_c = with_c.then(|| {
             series.push(
                 (0..2 * m)
                     .map(|i| {
@@ -324,18 +355,68 @@ impl SpectrumPlan {
                 }
             })
             .collect();
-        let dropped: Vec<usize> = match (self.params.inductance, self.col_l) {
-            (InductanceMode::Auto, Some(c)) if !highest_two_inductive(z_im_ohm) => vec![c],
-            _ => Vec::new(),
-        };
-        let problem = self.plan.problem(b, row_scale.as_deref(), &dropped)?;
         Ok(Scaled {
-            problem,
-            dropped,
+            b,
+            row_scale,
             weight,
             modulus,
             z_scale,
         })
+    }
+
+    /// The scaled problem of `s` without the plan columns `dropped`.
+    fn problem_for(&self, s: &Scaled, dropped: &[usize]) -> Result<Tikhonov> {
+        self.plan
+            .problem(s.b.clone(), s.row_scale.as_deref(), dropped)
+    }
+
+    /// The series columns in automatic mode that the data do not support:
+    /// each is dropped when removing it raises the weighted residual by
+    /// less than [`LR_THRESHOLD`] residual variances, at the lambda the
+    /// full model chose (global penalty).
+    fn unsupported_terms(&self, s: &Scaled, full: &Tikhonov, lambda: f64) -> Result<Vec<usize>> {
+        let auto: Vec<usize> = [
+            (self.col_l, self.params.inductance == InductanceMode::Auto),
+            (
+                self.col_c,
+                self.params.series_capacitance == CapacitanceMode::Auto,
+            ),
+        ]
+        .into_iter()
+        .filter_map(|(col, auto)| col.filter(|_| auto))
+        .collect();
+        if auto.is_empty() {
+            return Ok(Vec::new());
+        }
+        let base = full.solve(lambda, &[]);
+        let rows = full.nrows() as f64;
+        let dof = full.influence_trace(lambda, &base.free);
+        // A relative noise floor of 1e-9 keeps exact data from dividing by 0.
+        let floor = 1e-18 * crate::linalg::dot(&s.b, &s.b) / rows;
+        let sigma2 = (base.residual_sq / (rows - dof).max(1.0)).max(floor);
+        let mut dropped = Vec::new();
+        for col in auto {
+            let reduced = self.problem_for(s, &[col])?;
+            let without = reduced.solve(lambda, &[]);
+            let statistic = (without.residual_sq - base.residual_sq) / sigma2;
+            if statistic < LR_THRESHOLD {
+                dropped.push(col);
+            }
+        }
+        Ok(dropped)
+    }
+
+    /// Solves `s`: the full model, then, when a series term in automatic
+    /// mode is not supported by the data, the model without it.
+    fn solve_scaled(&self, s: &Scaled, warm: Option<&WarmStart>) -> Result<(Solved, Vec<usize>)> {
+        let full = self.problem_for(s, &[])?;
+        let solved = self.plan.solve(&full, &[], warm);
+        let dropped = self.unsupported_terms(s, &full, solved.selection.lambda)?;
+        if dropped.is_empty() {
+            return Ok((solved, dropped));
+        }
+        let reduced = self.problem_for(s, &dropped)?;
+        Ok((self.plan.solve(&reduced, &dropped, warm), dropped))
     }
 
     /// The scaled regularised problem `min ||A x - b||^2 + lambda x'Mx,
@@ -344,7 +425,9 @@ impl SpectrumPlan {
     /// then R_inf, then the inductance and series-capacitance columns when
     /// modelled; all in units of `max |Z|`.
     pub fn problem(&self, z_re_ohm: &[f64], z_im_ohm: &[f64]) -> Result<Tikhonov> {
-        Ok(self.scale(z_re_ohm, z_im_ohm)?.problem)
+        let s = self.scale(z_re_ohm, z_im_ohm)?;
+        let (_, dropped) = self.solve_scaled(&s, None)?;
+        self.problem_for(&s, &dropped)
     }
 
     /// Inverts one spectrum measured at the plan's frequencies, optionally
@@ -360,7 +443,7 @@ impl SpectrumPlan {
         warm: Option<&WarmStart>,
     ) -> Result<SpectrumInversion> {
         let d = self.scale(z_re_ohm, z_im_ohm)?;
-        let solved = self.plan.solve(&d.problem, &d.dropped, warm);
+        let (solved, dropped) = self.solve_scaled(&d, warm)?;
         let m = self.frequency_hz.len();
         let n = self.plan.n_gamma();
         let x = &solved.x;
@@ -369,9 +452,9 @@ impl SpectrumPlan {
             instantaneous: Some(x[n] * d.z_scale),
             inductance_h: self
                 .col_l
-                .filter(|c| !d.dropped.contains(c))
+                .filter(|c| !dropped.contains(c))
                 .map(|c| x[c] * d.z_scale / self.omega_max),
-            series_capacitance_f: self.col_c.map(|c| {
+            series_capacitance_f: self.col_c.filter(|c| !dropped.contains(c)).map(|c| {
                 let inv_c = x[c] * d.z_scale * self.omega_min;
                 if inv_c > 0.0 {
                     1.0 / inv_c
@@ -412,14 +495,14 @@ impl SpectrumPlan {
                     .into()
             },
             long_name: "1/(2 pi f_min)",
-            long_hint: if self.col_c.is_some() {
+            long_hint: if series.series_capacitance_f.is_some() {
                 "the low-frequency arc does not close inside the band; measure to lower \
                  frequencies"
                     .into()
             } else {
                 "the low-frequency arc does not close inside the band; measure to lower \
                  frequencies, or, for a blocking electrode (a capacitive low-frequency branch), \
-                 fit a series capacitance with --series-capacitance"
+                 fit a series capacitance with --series-capacitance on"
                     .into()
             },
         };
@@ -718,7 +801,11 @@ mod tests {
             Element::Capacitor { c_f: 1e-2 },
         ]);
         let s = reference_spectrum(&blocking, 0.001, 7).unwrap();
-        let inv = invert(&s, &InvertParams::default()).unwrap();
+        let without_c = InvertParams {
+            series_capacitance: CapacitanceMode::Off,
+            ..InvertParams::default()
+        };
+        let inv = invert(&s, &without_c).unwrap();
         let long: Vec<&String> = inv
             .drt
             .warnings
@@ -727,16 +814,21 @@ mod tests {
             .collect();
         assert_eq!(long.len(), 1, "{:?}", inv.drt.warnings);
         assert!(
-            long[0].ends_with("with --series-capacitance"),
+            long[0].ends_with("with --series-capacitance on"),
             "{}",
             long[0]
         );
-        let with_c = InvertParams {
-            series_capacitance: true,
-            ..InvertParams::default()
-        };
-        let inv = invert(&s, &with_c).unwrap();
-        assert!(inv.drt.warnings.is_empty(), "{:?}", inv.drt.warnings);
+        // Automatic mode keeps the capacitance: no warning, C within 5 %.
+        for mode in [CapacitanceMode::On, CapacitanceMode::Auto] {
+            let with_c = InvertParams {
+                series_capacitance: mode,
+                ..InvertParams::default()
+            };
+            let inv = invert(&s, &with_c).unwrap();
+            assert!(inv.drt.warnings.is_empty(), "{:?}", inv.drt.warnings);
+            let c = inv.drt.series.series_capacitance_f.unwrap();
+            assert!((c / 1e-2 - 1.0).abs() < 0.05, "{mode:?}: {c}");
+        }
 
         let fast = Series(vec![
             Element::Resistor { r_ohm: 10.0 },
@@ -793,5 +885,65 @@ mod tests {
             .unwrap_err()
             .to_string();
         assert!(e.contains("frequency_hz[2]"), "{e}");
+    }
+
+    /// The series terms in automatic mode follow the data: a reflective
+    /// (coth) finite Warburg and a blocking electrode switch the series
+    /// capacitance on (C within 5 % of tau/R for the Warburg, J. Jacobsen
+    /// and K. West, Electrochim. Acta 40, 255-262, 1995, and of the
+    /// capacitor itself); every non-blocking reference cell leaves it off;
+    /// a 50 nH lead inductance that only the top frequencies show is
+    /// found (within 5 %) and R_inf with it (within 0.5 %).
+    #[test]
+    fn automatic_series_terms_follow_the_data() {
+        for seed in 1..=3 {
+            let cell = cells::reflective_warburg();
+            let s = reference_spectrum(&cell, 0.001, seed).unwrap();
+            let inv = invert(&s, &InvertParams::default()).unwrap();
+            let want = cell.capacitance_f().unwrap();
+            let got = inv.drt.series.series_capacitance_f.unwrap();
+            assert!(
+                (got / want - 1.0).abs() < 0.05,
+                "seed {seed}: {got} vs {want}"
+            );
+        }
+        for (name, cell) in [
+            ("voigt", cells::voigt()),
+            ("zarc", cells::zarc()),
+            ("two zarcs", cells::two_zarcs()),
+            ("zarc + voigt", cells::zarc_plus_voigt()),
+            ("two voigts", cells::two_voigts()),
+            ("finite warburg", cells::finite_warburg()),
+        ] {
+            for seed in 1..=3 {
+                let s = reference_spectrum(&cell, 0.001, seed).unwrap();
+                let inv = invert(&s, &InvertParams::default()).unwrap();
+                assert_eq!(
+                    inv.drt.series.series_capacitance_f, None,
+                    "{name} seed {seed}"
+                );
+                assert_eq!(inv.drt.series.inductance_h, None, "{name} seed {seed}");
+            }
+        }
+        let lead = Series(vec![
+            Element::Resistor { r_ohm: 0.5 },
+            Element::Inductor { l_h: 50e-9 },
+            Element::Zarc {
+                r_ohm: 1.0,
+                tau_s: 1e-3,
+                phi: 0.85,
+            },
+        ]);
+        let f = crate::synth::log_frequencies(1e-2, 1e5, 10.0);
+        let (mut re, mut im) = lead.sample(&f);
+        crate::synth::add_noise(&mut re, &mut im, 0.001, 1);
+        // Only the top frequencies are inductive: the old rule (the two
+        // highest both with Z'' > 0) may not see it.
+        let s = Spectrum::new(f, re, im).unwrap();
+        let inv = invert(&s, &InvertParams::default()).unwrap();
+        let l = inv.drt.series.inductance_h.unwrap();
+        assert!((l / 50e-9 - 1.0).abs() < 0.05, "{l}");
+        let r_inf = inv.drt.series.instantaneous.unwrap();
+        assert!((r_inf / 0.5 - 1.0).abs() < 0.005, "{r_inf}");
     }
 }

@@ -17,8 +17,8 @@ use crate::io::Spectrum;
 use crate::lambda::{LambdaCurves, LambdaRule};
 use crate::peaks::Peak;
 use crate::pipeline::{
-    Distribution, DrtOptions, GridEdge, InvertParams, LambdaSelection, SolveInfo, SpectrumFit,
-    SpectrumInversion,
+    CapacitanceMode, Distribution, DrtOptions, GridEdge, InductanceMode, InvertParams,
+    LambdaSelection, SolveInfo, SpectrumFit, SpectrumInversion,
 };
 use crate::solve::SolveStatus;
 use serde::Serialize;
@@ -188,6 +188,10 @@ pub struct Settings {
     pub inductance_modelled: bool,
     /// Whether a series capacitance was modelled.
     pub series_capacitance_modelled: bool,
+    /// Inductance mode asked for: `auto`, `on` or `off`.
+    pub inductance: InductanceMode,
+    /// Series-capacitance mode asked for: `auto`, `on` or `off`.
+    pub series_capacitance: CapacitanceMode,
 }
 
 /// How lambda was chosen, as every `summary.json` reports it.
@@ -306,6 +310,8 @@ impl Summary {
                 weighting: format!("{:?}", params.weighting).to_lowercase(),
                 inductance_modelled: drt.series.inductance_h.is_some(),
                 series_capacitance_modelled: drt.series.series_capacitance_f.is_some(),
+                inductance: params.inductance,
+                series_capacitance: params.series_capacitance,
             },
         }
     }

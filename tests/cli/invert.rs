@@ -522,9 +522,10 @@ fn negative_real_parts_are_warned() {
 }
 
 /// A blocking electrode (10 ohm + Voigt(50 ohm, 1 ms) + 10 mF in series)
-/// measured down to 0.01 Hz: without a series capacitance in the model the
+/// measured down to 0.01 Hz: with the series capacitance switched off the
 /// distribution piles up beyond 1/(2 pi f_min), said on stderr and in
-/// summary.json with the option that fixes it; with it, nothing is said.
+/// summary.json with the option that fixes it; with it on, or automatic
+/// (the default, which finds it and says so), nothing is warned.
 #[test]
 fn a_distribution_beyond_the_band_is_warned_with_a_hint() {
     let dir = tempdir();
@@ -536,7 +537,7 @@ fn a_distribution_beyond_the_band_is_warned_with_a_hint() {
             -50.0 * x / (1.0 + x * x) - 1.0 / (w * 1e-2),
         )
     });
-    let (run, warnings) = invert_json(dir.path(), "block.csv", &[]);
+    let (run, warnings) = invert_json(dir.path(), "block.csv", &["--series-capacitance", "off"]);
     let edge: Vec<&String> = warnings
         .iter()
         .filter(|w| {
@@ -545,7 +546,7 @@ fn a_distribution_beyond_the_band_is_warned_with_a_hint() {
         .collect();
     assert_eq!(edge.len(), 1, "{}", run.explain());
     assert!(
-        edge[0].ends_with("fit a series capacitance with --series-capacitance"),
+        edge[0].ends_with("fit a series capacitance with --series-capacitance on"),
         "{}",
         edge[0]
     );
@@ -559,4 +560,17 @@ fn a_distribution_beyond_the_band_is_warned_with_a_hint() {
     let (run, warnings) = invert_json(dir.path(), "block.csv", &["--series-capacitance"]);
     assert!(warnings.is_empty(), "{}", run.explain());
     assert!(run.stderr.is_empty(), "{}", run.explain());
+    let (run, warnings) = invert_json(dir.path(), "block.csv", &[]);
+    assert!(warnings.is_empty(), "{}", run.explain());
+    assert!(
+        run.stderr.starts_with(
+            "note: block.csv: the fit needs a series capacitance (a capacitive low-frequency \
+             branch): C = 1.000e-2 F, kept by the significance test"
+        ),
+        "{}",
+        run.explain()
+    );
+    let json: serde_json::Value = serde_json::from_str(&run.stdout).unwrap();
+    let c = json["series_capacitance_f"].as_f64().unwrap();
+    assert!((c / 1e-2 - 1.0).abs() < 0.01, "{c}");
 }
