@@ -159,11 +159,7 @@ impl DrtOptions {
                         value: hi,
                     });
                 }
-                TauGrid::new(
-                    lo.unwrap_or(d_lo),
-                    hi.unwrap_or(d_hi),
-                    self.per_decade,
-                )
+                TauGrid::new(lo.unwrap_or(d_lo), hi.unwrap_or(d_hi), self.per_decade)
             }
         }
     }
