@@ -150,8 +150,9 @@ fn main() {
 /// The resolution and accuracy ladder (docs/resolution-ladder.md).
 mod resolution {
     use taumap::io::Spectrum;
+    use taumap::pipeline::adaptive::AdaptiveOptions;
     use taumap::pipeline::{
-        CapacitanceMode, DrtOptions, InvertParams, LambdaChoice, LambdaRule, SpectrumInversion,
+        DrtOptions, InvertParams, LambdaChoice, LambdaRule, SpectrumInversion,
         invert,
     };
     use taumap::synth::{Element, Series, cells, reference_spectrum};
@@ -182,6 +183,9 @@ mod resolution {
     pub struct CaseHints {
         /// The cell's low-frequency branch is a capacitor (reflective
         /// Warburg element): a series capacitance belongs in the model.
+        // Read by methods given as functions (`Method::from_fn`); the
+        // methods of `methods()` decide the series capacitance themselves.
+        #[allow(dead_code)]
         pub blocking: bool,
     }
 
@@ -199,20 +203,14 @@ mod resolution {
 
     impl Method {
         /// A method that is one set of parameters. The series capacitance
-        /// is switched on for blocking cases (as a user would pass
-        /// `--series-capacitance on`); elsewhere the parameters decide.
+        /// follows them (automatic by default, which must find it on the
+        /// blocking cases by itself).
         pub fn from_params(
             name: &'static str,
             description: &'static str,
             params: InvertParams,
         ) -> Self {
-            Self::from_fn(name, description, move |s, hints| {
-                let mut p = params.clone();
-                if hints.blocking {
-                    p.series_capacitance = CapacitanceMode::On;
-                }
-                invert(s, &p)
-            })
+            Self::from_fn(name, description, move |s, _hints| invert(s, &params))
         }
 
         /// A method given as a function (free to ignore the hints, for a
@@ -255,6 +253,17 @@ mod resolution {
                 "order1",
                 "discrepancy rule, first-derivative penalty (k = 1)",
                 with(LambdaRule::Discrepancy, 1),
+            ),
+            Method::from_params(
+                "adaptive",
+                "uniform penalty refined from the default (--penalty adaptive)",
+                InvertParams {
+                    drt: DrtOptions {
+                        adaptive: Some(AdaptiveOptions::default()),
+                        ..DrtOptions::default()
+                    },
+                    ..InvertParams::default()
+                },
             ),
         ]
     }

@@ -173,6 +173,12 @@ pub struct InvertArgs {
     /// Residual weighting.
     #[arg(long, value_enum, default_value = "modulus")]
     pub weighting: WeightingArg,
+    /// Fit only the points at or above this frequency (Hz).
+    #[arg(long, value_name = "HZ", allow_negative_numbers = true)]
+    pub f_min: Option<f64>,
+    /// Fit only the points at or below this frequency (Hz).
+    #[arg(long, value_name = "HZ", allow_negative_numbers = true)]
+    pub f_max: Option<f64>,
     /// Column choices.
     #[command(flatten)]
     pub columns: ColumnArgs,
@@ -228,6 +234,9 @@ pub struct TransientArgs {
         allow_negative_numbers = true
     )]
     pub fit_start: f64,
+    /// Skip samples after S seconds after the step (a drift or a later event).
+    #[arg(long, value_name = "S", allow_negative_numbers = true)]
+    pub fit_end: Option<f64>,
     /// Time of the step on the file's time axis (s); times are taken relative to it.
     #[arg(
         long,

@@ -93,6 +93,55 @@ pub fn out_dir(input: &Path, out: Option<&Path>) -> Result<PathBuf> {
     }
 }
 
+/// The points of `spectrum` within `--f-min`/`--f-max` (all without
+/// them); says on stderr how many are kept.
+fn band(
+    input: &Path,
+    spectrum: Spectrum,
+    f_min: Option<f64>,
+    f_max: Option<f64>,
+) -> Result<Spectrum> {
+    if f_min.is_none() && f_max.is_none() {
+        return Ok(spectrum);
+    }
+    for (name, v) in [("f-min", f_min), ("f-max", f_max)] {
+        if let Some(v) = v
+            && !(v.is_finite() && v > 0.0)
+        {
+            bail!("parameter `{name}` must be a positive frequency in Hz, got {v}");
+        }
+    }
+    let (lo, hi) = (f_min.unwrap_or(0.0), f_max.unwrap_or(f64::INFINITY));
+    if lo > hi {
+        bail!("parameter `f-max` must be at least f-min ({lo}), got {hi}");
+    }
+    let keep: Vec<usize> = (0..spectrum.len())
+        .filter(|&i| (lo..=hi).contains(&spectrum.frequency_hz[i]))
+        .collect();
+    let pick = |v: &[f64]| keep.iter().map(|&i| v[i]).collect::<Vec<f64>>();
+    let n = keep.len();
+    if n < taumap::io::spectrum::MIN_POINTS {
+        bail!(
+            "{}: --f-min/--f-max keep {n} of {} points; at least {} are needed",
+            input.display(),
+            spectrum.len(),
+            taumap::io::spectrum::MIN_POINTS
+        );
+    }
+    eprintln!(
+        "note: {}: fitting {n} of {} points, {:.4e} to {:.4e} Hz (--f-min/--f-max)",
+        input.display(),
+        spectrum.len(),
+        spectrum.frequency_hz[keep[0]],
+        spectrum.frequency_hz[keep[n - 1]]
+    );
+    Ok(Spectrum::new(
+        pick(&spectrum.frequency_hz),
+        pick(&spectrum.z_re_ohm),
+        pick(&spectrum.z_im_ohm),
+    )?)
+}
+
 /// Says on stderr how the reader took a file whose layout is not the
 /// canonical one: skipped free text, converted units, its encoding.
 fn report_layout(input: &Path, layout: &SpectrumLayout) {
@@ -140,6 +189,7 @@ pub fn run(a: &InvertArgs) -> Result<()> {
     let out = out_dir(&a.input, a.out.as_deref())?;
     let (spectrum, layout) = read_spectrum_with(&a.input, &a.columns.map()?)?;
     report_layout(&a.input, &layout);
+    let spectrum = band(&a.input, spectrum, a.f_min, a.f_max)?;
     let reader_warnings: Vec<String> = layout
         .imag_mostly_positive
         .then(|| {

@@ -35,6 +35,7 @@ pub fn run(a: &TransientArgs) -> Result<()> {
     let bins = BinOptions {
         bins_per_decade: a.bins_per_decade,
         fit_start_s: a.fit_start,
+        fit_end_s: a.fit_end.unwrap_or(f64::INFINITY),
         step_time_s: a.step_time,
     };
     let out = out_dir(&a.input, a.out.as_deref())?;

@@ -33,6 +33,9 @@ pub struct BinOptions {
     /// Samples at `0 < t < fit_start_s` are skipped (instrument settling,
     /// ringing of the leads right after the step); 0 keeps them all.
     pub fit_start_s: f64,
+    /// Samples at `t > fit_end_s` are skipped (a drift or a later event at
+    /// the end of the record); infinity keeps them all.
+    pub fit_end_s: f64,
     /// When the step happened on the file's time axis (s): every time is
     /// taken relative to it, so a logger's clock need not start at the step.
     pub step_time_s: f64,
@@ -43,6 +46,7 @@ impl Default for BinOptions {
         Self {
             bins_per_decade: DEFAULT_BINS_PER_DECADE,
             fit_start_s: 0.0,
+            fit_end_s: f64::INFINITY,
             step_time_s: 0.0,
         }
     }
@@ -185,9 +189,11 @@ pub struct BinnedTransient {
     pub at_step_samples: usize,
     /// Number of samples at `0 < t < fit_start_s` (skipped).
     pub early_samples: usize,
+    /// Number of samples at `t > fit_end_s` (skipped).
+    pub late_samples: usize,
     /// Time of the first response sample fitted (s).
     pub first_time_s: f64,
-    /// Time of the last sample, the record length (s).
+    /// Time of the last sample fitted, the record length (s).
     pub last_time_s: f64,
 }
 
@@ -214,13 +220,16 @@ impl BinnedTransient {
 pub(crate) struct Accumulator {
     binner: LogBinner,
     fit_start_s: f64,
+    fit_end_s: f64,
     step_time_s: f64,
     pre_sum: f64,
     pre_n: usize,
     at_step: usize,
     early: usize,
+    late: usize,
     first_t: f64,
     last_t: f64,
+    last_fit_t: f64,
 }
 
 impl Accumulator {
@@ -230,6 +239,13 @@ impl Accumulator {
                 name: "fit-start",
                 expected: "a time in seconds >= 0",
                 value: opts.fit_start_s,
+            });
+        }
+        if !(opts.fit_end_s > opts.fit_start_s && opts.fit_end_s > 0.0) {
+            return Err(Error::Param {
+                name: "fit-end",
+                expected: "a time in seconds after the step and after fit-start",
+                value: opts.fit_end_s,
             });
         }
         if !opts.step_time_s.is_finite() {
@@ -242,13 +258,16 @@ impl Accumulator {
         Ok(Self {
             binner: LogBinner::new(opts.bins_per_decade)?,
             fit_start_s: opts.fit_start_s,
+            fit_end_s: opts.fit_end_s,
             step_time_s: opts.step_time_s,
             pre_sum: 0.0,
             pre_n: 0,
             at_step: 0,
             early: 0,
+            late: 0,
             first_t: f64::NAN,
             last_t: f64::NEG_INFINITY,
+            last_fit_t: f64::NAN,
         })
     }
 
@@ -272,10 +291,14 @@ impl Accumulator {
         } else if t < self.fit_start_s {
             self.early += 1;
             Ok(())
+        } else if t > self.fit_end_s {
+            self.late += 1;
+            Ok(())
         } else {
             if self.first_t.is_nan() {
                 self.first_t = t;
             }
+            self.last_fit_t = t;
             self.binner.push(t, v)
         }
     }
@@ -289,8 +312,14 @@ impl Accumulator {
             response_samples,
             at_step_samples: self.at_step,
             early_samples: self.early,
+            late_samples: self.late,
             first_time_s: self.first_t,
-            last_time_s: self.last_t,
+            // The record's last fitted sample; without any, its last sample.
+            last_time_s: if self.last_fit_t.is_nan() {
+                self.last_t
+            } else {
+                self.last_fit_t
+            },
         }
     }
 }

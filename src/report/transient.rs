@@ -107,6 +107,8 @@ pub struct TransientSettings {
     pub bins_per_decade: f64,
     /// Samples before this time after the step were skipped (s).
     pub fit_start_s: f64,
+    /// Samples after this time were skipped (s), or null when none.
+    pub fit_end_s: Option<f64>,
     /// Time of the step on the file's time axis (s).
     pub step_time_s: f64,
     /// Whether a series capacitance was modelled.
@@ -130,6 +132,8 @@ pub struct TransientSummary {
     pub n_pre_step: usize,
     /// Samples after the step skipped before `fit_start_s`.
     pub n_skipped_early: usize,
+    /// Samples skipped after `fit_end_s`.
+    pub n_skipped_late: usize,
     /// Pre-step value used (V or A), or null.
     pub baseline: Option<f64>,
     /// Where the baseline came from.
@@ -196,6 +200,7 @@ impl TransientSummary {
             n_bins: record.bins.len(),
             n_pre_step: record.pre_step_samples,
             n_skipped_early: record.early_samples,
+            n_skipped_late: record.late_samples,
             baseline: inv.fit.baseline,
             baseline_source: inv.fit.baseline_source,
             quantities,
@@ -208,6 +213,7 @@ impl TransientSummary {
                 drt: DrtSettings::new(&params.drt, &drt.grid),
                 bins_per_decade: bins.bins_per_decade,
                 fit_start_s: bins.fit_start_s,
+                fit_end_s: bins.fit_end_s.is_finite().then_some(bins.fit_end_s),
                 step_time_s: bins.step_time_s,
                 series_capacitance_modelled: params.series_capacitance,
             },

@@ -574,3 +574,37 @@ fn a_distribution_beyond_the_band_is_warned_with_a_hint() {
     let c = json["series_capacitance_f"].as_f64().unwrap();
     assert!((c / 1e-2 - 1.0).abs() < 0.01, "{c}");
 }
+
+/// `--f-min`/`--f-max` fit only the band between them: the summary counts
+/// the points fitted, stderr says so, and a band with fewer than 5 points
+/// is refused naming the file.
+#[test]
+fn frequency_band_limits_the_fitted_points() {
+    let dir = tempdir();
+    std::fs::write(dir.path().join("cell.csv"), crate::util::voigt_csv()).unwrap();
+    let (run, _) = invert_json(dir.path(), "cell.csv", &["--f-max", "1000"]);
+    let json: serde_json::Value = serde_json::from_str(&run.stdout).unwrap();
+    // 0.1 Hz to 1 kHz at 10 per decade: 41 of the 61 points.
+    assert_eq!(json["n_points"].as_u64(), Some(41), "{}", run.explain());
+    assert!(
+        run.stderr
+            .contains("note: cell.csv: fitting 41 of 61 points, 1.0000e-1 to 1.0000e3 Hz"),
+        "{}",
+        run.explain()
+    );
+    assert!(
+        (json["r_inf_ohm"].as_f64().unwrap() - 10.0).abs() < 0.2,
+        "{}",
+        run.stdout
+    );
+    let run = taumap(
+        dir.path(),
+        &["invert", "cell.csv", "--out", "o", "--f-min", "5e4"],
+    );
+    assert_clean_failure(
+        &run,
+        "error: cell.csv: --f-min/--f-max keep 4 of 61 points; at least 5 are needed",
+        dir.path(),
+        "o",
+    );
+}

@@ -529,3 +529,75 @@ fn a_residual_far_above_the_noise_is_warned() {
         run.explain()
     );
 }
+
+/// `--fit-end` drops the samples after it: the record length, the grid's
+/// upper end and the summary follow; a value not after `--fit-start` is
+/// refused as an option error.
+#[test]
+fn fit_end_limits_the_fitted_record() {
+    let dir = tempdir();
+    let pulse = repo_root().join("demo-data/button-cell-700c-pulse.csv");
+    let p = pulse.to_str().unwrap();
+    let full = taumap(
+        dir.path(),
+        &[
+            "transient",
+            p,
+            "--current-step-a",
+            "-0.1",
+            "--out",
+            "a",
+            "--no-plots",
+            "--json",
+        ],
+    );
+    assert_eq!(full.code, 0, "{}", full.explain());
+    let cut = taumap(
+        dir.path(),
+        &[
+            "transient",
+            p,
+            "--current-step-a",
+            "-0.1",
+            "--out",
+            "b",
+            "--no-plots",
+            "--json",
+            "--fit-end",
+            "0.05",
+        ],
+    );
+    assert_eq!(cut.code, 0, "{}", cut.explain());
+    let (a, b) = (json(&full), json(&cut));
+    assert_eq!(b["settings"]["fit_end_s"].as_f64(), Some(0.05));
+    assert!(a["settings"]["fit_end_s"].is_null());
+    assert_eq!(a["n_skipped_late"].as_u64(), Some(0));
+    let late = b["n_skipped_late"].as_u64().unwrap();
+    let (na, nb) = (
+        a["n_samples"].as_u64().unwrap(),
+        b["n_samples"].as_u64().unwrap(),
+    );
+    assert!(late > 0 && nb + late == na, "{na} {nb} {late}");
+    assert!(
+        b["settings"]["tau_max_s"].as_f64().unwrap() < a["settings"]["tau_max_s"].as_f64().unwrap()
+    );
+    let bad = taumap(
+        dir.path(),
+        &[
+            "transient",
+            p,
+            "--current-step-a",
+            "-0.1",
+            "--out",
+            "c",
+            "--fit-end",
+            "0",
+        ],
+    );
+    assert_clean_failure(
+        &bad,
+        "error: parameter `fit-end` must be a time in seconds after the step and after fit-start, got 0",
+        dir.path(),
+        "c",
+    );
+}
