@@ -374,7 +374,8 @@ impl SpectrumPlan {
     /// each is dropped when removing it raises the weighted residual by
     /// less than [`LR_THRESHOLD`] residual variances, at the lambda the
     /// full model chose (global penalty).
-    fn unsupported_terms(&self, s: &Scaled, full: &Tikhonov, lambda: f64) -> Result<Vec<usize>> {
+    fn unsupported_terms(&self, s: &Scaled, full: &Tikhonov, solved: &Solved) -> Vec<usize> {
+        let lambda = solved.selection.lambda;
         let auto: Vec<usize> = [
             (self.col_l, self.params.inductance == InductanceMode::Auto),
             (
@@ -386,24 +387,32 @@ impl SpectrumPlan {
         .filter_map(|(col, auto)| col.filter(|_| auto))
         .collect();
         if auto.is_empty() {
-            return Ok(Vec::new());
+            return Vec::new();
         }
-        let base = full.solve(lambda, &[]);
         let rows = full.nrows() as f64;
-        let dof = full.influence_trace(lambda, &base.free);
+        // The full model's residual and effective parameters at lambda with
+        // the global penalty: the final solve's own, unless the adaptive
+        // penalty replaced it.
+        let (residual_sq, dof) = if self.params.drt.adaptive.is_none() {
+            (solved.residual_rms.powi(2) * rows, solved.info.dof)
+        } else {
+            let base = full.solve(lambda, &[]);
+            let dof = full.influence_trace(lambda, &base.free);
+            (base.residual_sq, dof)
+        };
         // A relative noise floor of 1e-9 keeps exact data from dividing by 0.
         let floor = 1e-18 * crate::linalg::dot(&s.b, &s.b) / rows;
-        let sigma2 = (base.residual_sq / (rows - dof).max(1.0)).max(floor);
+        let sigma2 = (residual_sq / (rows - dof).max(1.0)).max(floor);
         let mut dropped = Vec::new();
         for col in auto {
-            let reduced = self.problem_for(s, &[col])?;
-            let without = reduced.solve(lambda, &[]);
-            let statistic = (without.residual_sq - base.residual_sq) / sigma2;
+            let keep: Vec<usize> = (0..full.ncols()).filter(|&j| j != col).collect();
+            let without = full.keep_columns(&keep).solve(lambda, &[]);
+            let statistic = (without.residual_sq - residual_sq) / sigma2;
             if statistic < LR_THRESHOLD {
                 dropped.push(col);
             }
         }
-        Ok(dropped)
+        dropped
     }
 
     /// Solves `s`: the full model, then, when a series term in automatic
@@ -411,11 +420,12 @@ impl SpectrumPlan {
     fn solve_scaled(&self, s: &Scaled, warm: Option<&WarmStart>) -> Result<(Solved, Vec<usize>)> {
         let full = self.problem_for(s, &[])?;
         let solved = self.plan.solve(&full, &[], warm);
-        let dropped = self.unsupported_terms(s, &full, solved.selection.lambda)?;
+        let dropped = self.unsupported_terms(s, &full, &solved);
         if dropped.is_empty() {
             return Ok((solved, dropped));
         }
-        let reduced = self.problem_for(s, &dropped)?;
+        let keep: Vec<usize> = (0..full.ncols()).filter(|j| !dropped.contains(j)).collect();
+        let reduced = full.keep_columns(&keep);
         Ok((self.plan.solve(&reduced, &dropped, warm), dropped))
     }
 

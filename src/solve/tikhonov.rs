@@ -129,6 +129,23 @@ impl Tikhonov {
         }
     }
 
+    /// The same problem on the unknowns `keep` only (ascending indices):
+    /// design, cross product, penalty and prior restricted, without
+    /// forming a cross product again.
+    pub(crate) fn keep_columns(&self, keep: &[usize]) -> Self {
+        let k = keep.len();
+        let sub = |m: &DMatrix<f64>| DMatrix::from_fn(k, k, |r, c| m[(keep[r], keep[c])]);
+        Self {
+            a: Arc::new(self.a.select_columns(keep)),
+            b: self.b.clone(),
+            ata: Arc::new(sub(&self.ata)),
+            atb: DVector::from_fn(k, |r, _| self.atb[keep[r]]),
+            penalty: Arc::new(sub(&self.penalty)),
+            prior: self.prior.as_ref().map(|(p, f)| (Arc::new(sub(p)), *f)),
+            nnls: self.nnls,
+        }
+    }
+
     /// The tolerances of every NNLS solve of this problem.
     #[must_use]
     pub fn with_nnls_params(mut self, params: NnlsParams) -> Self {
