@@ -630,6 +630,43 @@ fn cases() -> Vec<Case> {
         .with("step.csv", step_record("time_s,voltage_v")),
         case(
             OPTIONS,
+            "`--fit-end` not after `--fit-start`",
+            "`--fit-start 1 --fit-end 0.5`",
+            &[
+                "transient",
+                "step.csv",
+                "--current-step-a",
+                "0.1",
+                "--fit-start",
+                "1",
+                "--fit-end",
+                "0.5",
+            ],
+        )
+        .with("step.csv", step_record("time_s,voltage_v")),
+        case(
+            OPTIONS,
+            "`--f-min` not positive",
+            "`--f-min 0`",
+            &["invert", "cell.csv", "--f-min", "0"],
+        )
+        .with("cell.csv", voigt_csv()),
+        case(
+            OPTIONS,
+            "`--f-max` below `--f-min`",
+            "`--f-min 100 --f-max 10`",
+            &["invert", "cell.csv", "--f-min", "100", "--f-max", "10"],
+        )
+        .with("cell.csv", voigt_csv()),
+        case(
+            OPTIONS,
+            "`--f-min`/`--f-max` leave too few points",
+            "`--f-min 5e4` on a spectrum up to 100 kHz",
+            &["invert", "cell.csv", "--f-min", "5e4"],
+        )
+        .with("cell.csv", voigt_csv()),
+        case(
+            OPTIONS,
             "`--step-time` not finite",
             "`--step-time inf`",
             &[
