@@ -396,7 +396,7 @@ pub fn parse_spectrum_with<R: BufRead>(
                 ),
             ));
         }
-        let f = table.number(&row, f_col)? * f_scale;
+        let f = table.converted(&row, f_col, f_scale)?;
         if f <= 0.0 {
             return Err(table.error(
                 row.line,
@@ -407,8 +407,8 @@ pub fn parse_spectrum_with<R: BufRead>(
                 ),
             ));
         }
-        let a = table.number(&row, a_col)? * a_scale;
-        let b = table.number(&row, b_col)? * b_scale;
+        let a = table.converted(&row, a_col, a_scale)?;
+        let b = table.converted(&row, b_col, b_scale)?;
         let (re, im) = if choice.polar {
             if a < 0.0 {
                 return Err(table.error(
@@ -427,19 +427,6 @@ pub fn parse_spectrum_with<R: BufRead>(
         } else {
             (a, b)
         };
-        for (value, col) in [(f, f_col), (a, a_col), (b, b_col)] {
-            if !value.is_finite() {
-                return Err(table.error(
-                    row.line,
-                    format!(
-                        "value \"{}\" (column {}) is out of the range of double precision \
-                         once converted from the column's unit",
-                        excerpt(row.field(col)),
-                        table.column_name(col)
-                    ),
-                ));
-            }
-        }
         points.push(Point {
             f,
             re,

@@ -627,6 +627,26 @@ impl TableHead {
         )
     }
 
+    /// Field `col` of `row` as a number (see [`Self::number`]) times
+    /// `factor`, the conversion from the column's unit; fails when the
+    /// product leaves the range of double precision, naming value and
+    /// column.
+    pub fn converted(&self, row: &Row, col: usize, factor: f64) -> Result<f64> {
+        let value = self.number(row, col)? * factor;
+        if value.is_finite() {
+            return Ok(value);
+        }
+        Err(self.error(
+            row.line,
+            format!(
+                "value \"{}\" (column {}) is out of the range of double precision \
+                 once converted from the column's unit",
+                excerpt(row.field(col)),
+                self.column_name(col)
+            ),
+        ))
+    }
+
     /// Whether a comma in a number is a decimal comma: when the delimiter
     /// is not a comma (common practice in locales that write `1,5`).
     pub fn decimal_comma(&self) -> bool {

@@ -156,21 +156,8 @@ pub fn parse_transient_with<R: BufRead>(
     let mut acc = Accumulator::new(opts)?;
     let mut prev: Option<(f64, usize)> = None;
     while let Some(row) = table.next_row()? {
-        let t = table.number(&row, cols[0])? * scale[0];
-        let v = table.number(&row, cols[1])? * scale[1];
-        for (value, col) in [(t, cols[0]), (v, cols[1])] {
-            if !value.is_finite() {
-                return Err(table.error(
-                    row.line,
-                    format!(
-                        "value \"{}\" (column {}) is out of the range of double precision \
-                         once converted from the column's unit",
-                        excerpt(row.field(col)),
-                        table.column_name(col)
-                    ),
-                ));
-            }
-        }
+        let t = table.converted(&row, cols[0], scale[0])?;
+        let v = table.converted(&row, cols[1], scale[1])?;
         if let Some((tp, line)) = prev
             && t <= tp
         {
