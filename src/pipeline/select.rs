@@ -106,8 +106,12 @@ pub(crate) fn select(
                 Some(_) => None,
             };
             let chosen = rule_choice.unwrap_or(opts.lambda_floor.max(lo));
-            let floored = chosen < opts.lambda_floor;
-            let used = chosen.max(opts.lambda_floor);
+            // The floor replaces only a choice that ran off the bottom of the
+            // grid (the drift of GCV on noise-free data); an interior choice
+            // below it is the data's own (a long, densely sampled record
+            // whose bins average thousands of samples) and is kept.
+            let floored = chosen < opts.lambda_floor && grid_edge == Some(GridEdge::Lower);
+            let used = if floored { opts.lambda_floor } else { chosen };
             // Warm-start the final solve from the nearest grid point.
             if let Some(p) = path.points.iter().min_by(|a, b| {
                 (a.solution.lambda / used)
