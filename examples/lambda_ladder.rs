@@ -152,8 +152,7 @@ mod resolution {
     use taumap::io::Spectrum;
     use taumap::pipeline::adaptive::AdaptiveOptions;
     use taumap::pipeline::{
-        DrtOptions, InvertParams, LambdaChoice, LambdaRule, SpectrumInversion,
-        invert,
+        DrtOptions, InvertParams, LambdaChoice, LambdaRule, SpectrumInversion, invert,
     };
     use taumap::synth::{Element, Series, cells, reference_spectrum};
 

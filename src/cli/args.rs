@@ -160,12 +160,14 @@ pub struct InvertArgs {
     pub inductance: InductanceArg,
     /// Series capacitance (blocking electrodes): auto keeps it when the
     /// fit needs it (a capacitive low-frequency branch); the flag alone
-    /// means on.
+    /// means on, as it always has; a mode is given with `=`
+    /// (`--series-capacitance=off`).
     #[arg(
         long,
         value_enum,
         default_value = "auto",
         num_args = 0..=1,
+        require_equals = true,
         default_missing_value = "on",
         value_name = "auto|on|off"
     )]

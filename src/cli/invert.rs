@@ -214,7 +214,7 @@ pub fn run(a: &InvertArgs) -> Result<()> {
     {
         eprintln!(
             "note: {}: the fit needs a series capacitance (a capacitive low-frequency branch): \
-             C = {c:.3e} F, kept by the significance test (--series-capacitance off to leave it out)",
+             C = {c:.3e} F, kept by the significance test (--series-capacitance=off to leave it out)",
             a.input.display()
         );
     }

@@ -371,6 +371,7 @@ mod tests {
             header_text: names.join(","),
             header_line: 3,
             preamble: None,
+            decimal: std::cell::Cell::new(None),
         }
     }
 

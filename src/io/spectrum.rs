@@ -15,8 +15,7 @@
 //! | imaginary part (Ω) | `z_im_ohm`, `imag`, `im`, `z''`, `zimag`, `z_im`, `zim`, `z_imag` |
 //! | negated imaginary part (Ω) | `-z''`, `-imag`, `-im`, `-z_im`, `-z_im_ohm`, `neg_z_im_ohm`, `minus_z_im`, `-zimag`, … |
 //! | modulus (Ω) | `modulus`, `mod`, `\|z\|`, `z_mod_ohm`, `zmod`, `magnitude`, `z_abs_ohm` |
-//! | phase (degrees) | `phase`, `phase_deg`, `phi`, `theta`, `z_phase_deg` |
-//!
+//! | phase (degrees) | `phase`, `phase_deg`, `phi`, `theta`, `z_phase_deg`, `φ`, `θ`, `phase_angle` |
 //! | negated phase (degrees) | `-phase`, `-phase_deg`, `-phi`, `-φ`, `-theta`, `-z_phase_deg`, `neg_phase`, … |
 //!
 //! A unit written after the name (`Freq (Hz)`, `Z' [Ohm]`, `Phase/deg`,
@@ -651,7 +650,14 @@ fn choose_columns(table: &TableHead, map: &ColumnMap) -> Result<Choice> {
         };
         factors[k] = match unit_factor(&unit, bases) {
             UnitReading::Factor(f) => f,
-            _ if given.is_some() => {
+            UnitReading::Ambiguous if given.is_some() => {
+                return Err(Error::Config(format!(
+                    "--unit {}={unit}: ambiguous, milli or mega? (write the prefix as m or M \
+                     with the unit in its usual case, e.g. mHz or MHz)",
+                    ROLES[role]
+                )));
+            }
+            UnitReading::Unknown if given.is_some() => {
                 return Err(Error::Config(format!(
                     "--unit {}={unit}: not a unit of the {what} (use one of {})",
                     ROLES[role],

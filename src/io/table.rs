@@ -7,8 +7,10 @@
 //!
 //! Accepted layout:
 //!
-//! - UTF-8 text, optionally starting with a byte-order mark; any other
-//!   encoding is rejected with the line and byte where decoding failed;
+//! - UTF-8 text, optionally starting with a byte-order mark; UTF-16 (with
+//!   or without a byte-order mark) is transcoded; a line that is not UTF-8
+//!   is read as Windows-1252 (Latin-1); control characters (a binary file)
+//!   are refused;
 //! - line ends `\n`, `\r\n` or a lone `\r`;
 //! - comment lines, whose first non-blank character is `#`, and blank lines
 //!   are skipped anywhere in the file; so are lines holding nothing but
@@ -19,7 +21,11 @@
 //!   of comma, semicolon, tab wins;
 //! - spaces around fields are ignored; a field may be enclosed in double
 //!   quotes, with `""` standing for one quote inside it;
-//! - every data row has exactly as many fields as the header.
+//! - every data row has exactly as many fields as the header, after empty
+//!   fields at its end (a trailing delimiter) are dropped;
+//! - a block of free text may stand above the header when the reader says
+//!   what a header must name ([`TableReader::find_header`]);
+//! - lines of at most [`MAX_LINE_BYTES`] bytes.
 
 use std::io::BufRead;
 use std::path::{Path, PathBuf};
@@ -45,6 +51,10 @@ pub struct TableHead {
     /// First and last line of the free text skipped above the header, if
     /// any (comments and blank lines are not counted).
     pub preamble: Option<(usize, usize)>,
+    /// The decimal separator of the file and the line that first showed
+    /// it, once a number with a point or (where allowed) a comma has been
+    /// read: a file writes one or the other, never both.
+    pub decimal: std::cell::Cell<Option<(char, usize)>>,
 }
 
 /// A delimited text table: a header and the data rows below it.
@@ -181,44 +191,67 @@ impl LineSource {
     /// Appends the next chunk of the reader to `buf` (as UTF-8); sets `eof`
     /// at the end.
     fn fill<R: BufRead>(&mut self, reader: &mut R, path: &Path) -> Result<()> {
-        let io_err = |source| Error::Io {
-            path: path.to_path_buf(),
-            source,
-        };
-        let chunk = loop {
-            match reader.fill_buf() {
-                Ok(c) => break c,
-                Err(e) if e.kind() == std::io::ErrorKind::Interrupted => {}
-                Err(e) => return Err(io_err(e)),
+        let read = |reader: &mut R| -> Result<Vec<u8>> {
+            loop {
+                match reader.fill_buf() {
+                    Ok(c) => {
+                        let chunk = c.to_vec();
+                        reader.consume(chunk.len());
+                        return Ok(chunk);
+                    }
+                    Err(e) if e.kind() == std::io::ErrorKind::Interrupted => {}
+                    Err(source) => {
+                        return Err(Error::Io {
+                            path: path.to_path_buf(),
+                            source,
+                        });
+                    }
+                }
             }
         };
-        let n = chunk.len();
-        let mut body = chunk;
+        let mut chunk = read(reader)?;
         if !self.started {
             self.started = true;
-            if let Some(rest) = body.strip_prefix(b"\xEF\xBB\xBF") {
-                body = rest;
-            } else if let Some((encoding, dec)) = sniff_utf16(body) {
+            // A byte-order mark or the zero bytes of UTF-16 need the first
+            // four bytes, which a pipe may deliver one at a time.
+            while chunk.len() < 4 {
+                let more = read(reader)?;
+                if more.is_empty() {
+                    break;
+                }
+                chunk.extend_from_slice(&more);
+            }
+            if chunk.starts_with(b"\xEF\xBB\xBF") {
+                chunk.drain(..3);
+            } else if let Some((encoding, dec)) = sniff_utf16(&chunk) {
                 self.encoding = encoding;
                 self.decoder = Some(dec);
             }
+            if chunk.is_empty() {
+                // A file of a byte-order mark alone: read on to the end.
+                chunk = read(reader)?;
+            }
         }
+        let last = chunk.is_empty();
         match self.decoder.as_mut() {
             Some(dec) => {
-                let last = n == 0;
                 let needed = dec
-                    .max_utf8_buffer_length(body.len())
-                    .unwrap_or(body.len().saturating_mul(3) + 16);
+                    .max_utf8_buffer_length(chunk.len())
+                    .unwrap_or(chunk.len().saturating_mul(3) + 16);
                 let start = self.buf.len();
                 self.buf.resize(start + needed, 0);
-                let (_, read, written, _) = dec.decode_to_utf8(body, &mut self.buf[start..], last);
-                debug_assert_eq!(read, body.len(), "the buffer was sized for the whole chunk");
+                let (_, used, written, _) =
+                    dec.decode_to_utf8(&chunk, &mut self.buf[start..], last);
+                debug_assert_eq!(
+                    used,
+                    chunk.len(),
+                    "the buffer was sized for the whole chunk"
+                );
                 self.buf.truncate(start + written);
             }
-            None => self.buf.extend_from_slice(body),
+            None => self.buf.extend_from_slice(&chunk),
         }
-        reader.consume(n);
-        if n == 0 {
+        if last {
             self.eof = true;
         }
         Ok(())
@@ -499,6 +532,7 @@ impl<R: BufRead> TableReader<R> {
                 header_text: trimmed.to_string(),
                 header_line: line_no,
                 preamble: first.as_ref().map(|f| (f.header_line, last_skipped)),
+                decimal: std::cell::Cell::new(None),
             };
             let data_like = head.header.len() >= 2
                 && head
@@ -617,11 +651,44 @@ impl TableHead {
     /// A decimal comma is accepted unless the delimiter is a comma.
     ///
     /// A field missing from `row` reads as an empty field.
+    ///
+    /// Where decimal commas are allowed, the first number written with a
+    /// point or a comma fixes the file's separator; a later number with the
+    /// other one is refused, so that `9,000` in a file of decimal points
+    /// (a thousands separator) is never read as 9.
     pub fn number(&self, row: &Row, col: usize) -> Result<f64> {
+        let text = row.field(col);
+        if self.decimal_comma() {
+            let sep = match (text.contains('.'), text.contains(',')) {
+                (true, false) => Some('.'),
+                (false, true) => Some(','),
+                _ => None,
+            };
+            if let Some(sep) = sep {
+                match self.decimal.get() {
+                    None => self.decimal.set(Some((sep, row.line))),
+                    Some((seen, line)) if seen != sep => {
+                        return Err(self.error(
+                            row.line,
+                            format!(
+                                "\"{}\" (column {}) is written with a decimal {}, but line {line} \
+                                 used a decimal {}: a file uses one decimal separator (no \
+                                 thousands separators)",
+                                excerpt(text.trim()),
+                                self.column_name(col),
+                                if sep == ',' { "comma" } else { "point" },
+                                if seen == ',' { "comma" } else { "point" },
+                            ),
+                        ));
+                    }
+                    Some(_) => {}
+                }
+            }
+        }
         parse_finite(
             &self.path,
             row.line,
-            row.field(col),
+            text,
             self.column_name(col),
             self.decimal_comma(),
         )
@@ -1084,8 +1151,21 @@ mod tests {
             "cell_a.csv:3: value \"inf\" is not finite (column z_re_ohm)"
         );
         assert!(close(t.number(&rows[2], 0).unwrap(), 7.0));
-        // A semicolon file takes a decimal comma.
-        assert!(close(t.number(&rows[2], 1).unwrap(), 1.5));
+        // A semicolon file takes a decimal comma, but not after a decimal
+        // point on an earlier line (there it would be a thousands separator).
+        assert_eq!(
+            t.number(&rows[2], 1).unwrap_err().to_string(),
+            "cell_a.csv:4: \"1,5\" (column z_re_ohm) is written with a decimal comma, but \
+             line 2 used a decimal point: a file uses one decimal separator (no thousands \
+             separators)"
+        );
+        let t = read(b"a;b\n1,5;2\n-2,5e-3;3\n").unwrap();
+        assert!(close(t.number(&t.rows[0], 0).unwrap(), 1.5));
+        assert!(close(t.number(&t.rows[1], 0).unwrap(), -2.5e-3));
+        // A tab file of decimal points with a thousands separator.
+        let t = read(b"f\tre\n9,000\t10.5\n").unwrap();
+        assert!(t.number(&t.rows[0], 0).is_ok());
+        assert!(t.number(&t.rows[0], 1).is_err());
         let p = Path::new("x.csv");
         assert_eq!(
             parse_finite(p, 4, "1,5", "c", false)
@@ -1151,5 +1231,30 @@ mod tests {
         assert_eq!(t.find_columns(&["f", "freq"]), [1, 2]);
         assert_eq!(t.column_name(1), "Freq (Hz)");
         assert_eq!(t.column_name(7), "");
+    }
+
+    /// A pipe may deliver one byte at a time: the byte-order mark and the
+    /// UTF-16 sniffing still see the first four bytes, and a CR LF split
+    /// between two reads is one line end.
+    #[test]
+    fn byte_at_a_time_input_is_read_like_a_file() {
+        let text = "f,re,im\r\n1,2,3\r\n4,5,6\r\n";
+        let utf16: Vec<u8> = [0xFF, 0xFE]
+            .into_iter()
+            .chain(text.encode_utf16().flat_map(u16::to_le_bytes))
+            .collect();
+        let bom8: Vec<u8> = b"\xEF\xBB\xBF"
+            .iter()
+            .chain(text.as_bytes())
+            .copied()
+            .collect();
+        for bytes in [utf16, bom8, text.as_bytes().to_vec()] {
+            let slow = std::io::BufReader::with_capacity(1, &bytes[..]);
+            let t = read_table(slow, Path::new("cell_a.csv"), EXAMPLE).unwrap();
+            assert_eq!(t.header, ["f", "re", "im"]);
+            assert_eq!(t.rows.len(), 2);
+            assert_eq!(t.rows[1].fields, ["4", "5", "6"]);
+            assert_eq!(t.rows[1].line, 3);
+        }
     }
 }

@@ -5,9 +5,9 @@
 //!
 //! | quantity | names | units accepted |
 //! |---|---|---|
-//! | time | `time_s`, `time`, `t`, `t_s` | s, ms, us (µs), ns |
-//! | voltage | `voltage_v`, `voltage`, `v`, `u`, `v_v`, `ewe`, `potential`, `potential_v` | V, mV |
-//! | current | `current_a`, `current`, `i`, `i_a` | A, mA, uA (µA) |
+//! | time | `time_s`, `time`, `t`, `t_s` | s, ms, us (µs), ns, min, h |
+//! | voltage | `voltage_v`, `voltage`, `v`, `u`, `v_v`, `ewe`, `potential`, `potential_v` | V, mV, uV |
+//! | current | `current_a`, `current`, `i`, `i_a` | A, mA, uA (µA), nA |
 //!
 //! Other columns are ignored. Times must increase strictly from row to row
 //! (any spacing: linear, logarithmic, irregular). Samples at `t < 0` are the

@@ -157,7 +157,10 @@ pub(crate) fn refine(
     let mut last: Option<(TikhonovSolution, Tikhonov)> = None;
     let mut iterations = 0;
     let mut converged = false;
-    while iterations < opts.max_iter {
+    // An empty (or flat) global solution has no curvature to weigh the
+    // penalty by: there is nothing to refine.
+    let flat = curvature(&x, n_gamma).iter().all(|c| *c == 0.0);
+    while !flat && iterations < opts.max_iter {
         let w = weights(&x, n_gamma, residual_sq, opts.beta0);
         let weighted = problem.with_penalty(weighted_curvature_gram(&w, n_gamma, ncols));
         let solution = weighted.solve(1.0, &free);

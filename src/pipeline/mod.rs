@@ -31,7 +31,7 @@
 //! - [`binning`]: log-time binning of long transients.
 //!
 //! Scaling: the unknowns are solved in units of the response's largest
-//! magnitude (max |Z| of a spectrum, the largest change of a transient), so
+//! magnitude (max |Re Z| of a spectrum, the largest change of a transient), so
 //! `lambda` is dimensionless and comparable between measurements.
 
 pub mod adaptive;

@@ -31,7 +31,9 @@ pub struct DrtOptions {
     pub lambda: LambdaChoice,
     /// The grid searched by the rules (dimensionless lambda).
     pub lambda_grid: LambdaGrid,
-    /// Lower bound on the chosen lambda (see docs/lambda-rules.md).
+    /// Lambda used instead of a rule's choice that ran off the bottom of
+    /// the lambda grid (see docs/lambda-rules.md); an interior choice below
+    /// it is kept.
     pub lambda_floor: f64,
     /// Also compute the curve of the cross-validation rule
     /// ([`LambdaRule::Recv`], two more lambda sweeps) when another rule
