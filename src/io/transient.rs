@@ -229,10 +229,24 @@ fn choose_columns(
         Quantity::Voltage => (VOLTAGE_NAMES, VOLTAGE_UNITS, "voltage"),
         Quantity::Current => (CURRENT_NAMES, CURRENT_UNITS, "current"),
     };
-    let column = |head: &TableHead, role: &str, aliases: &[&str]| -> Result<Vec<usize>> {
-        Ok(match map.column(head, role)? {
+    // A heading whose unit is not one of the quantity's (`T/°C` beside
+    // `t/min`: a temperature, not a time) does not name it while another
+    // heading does; alone, it is reported with its unit.
+    let column = |head: &TableHead, role: &str, aliases: &[&str], bases: &[BaseUnit]| {
+        Ok::<_, Error>(match map.column(head, role)? {
             Some(c) => vec![c],
-            None => head.find_columns(aliases),
+            None => {
+                let all = head.find_columns(aliases);
+                let fitting: Vec<usize> = all
+                    .iter()
+                    .copied()
+                    .filter(|&c| match split_unit(head.column_name(c)).1 {
+                        Some(unit) => unit_factor(&unit, bases) != UnitReading::Unknown,
+                        None => true,
+                    })
+                    .collect();
+                if fitting.is_empty() { all } else { fitting }
+            }
         })
     };
     let header_err = |t: &TableHead, msg: String| t.error(t.header_line, msg);
@@ -242,7 +256,7 @@ fn choose_columns(
         .into_iter()
         .enumerate()
     {
-        let found = column(table, label, aliases)?;
+        let found = column(table, label, aliases, allowed)?;
         let col = match found[..] {
             [only] => only,
             [] => {
@@ -530,5 +544,24 @@ mod tests {
         .unwrap();
         assert_eq!(c.bins.len(), a.bins.len());
         assert_eq!(c.bins[3].value, a.bins[3].value);
+    }
+
+    /// A temperature column `T/°C` is not a time column beside `t/min`;
+    /// alone, it is reported with its unit.
+    #[test]
+    fn a_heading_with_a_foreign_unit_does_not_name_the_quantity() {
+        let mut text = String::from("t/min;U/mV;T/\u{b0}C\n");
+        for k in 1..=400 {
+            let t = 0.01 * f64::from(k) / 60.0;
+            text.push_str(&format!("{t};{};25\n", 3600.0 + f64::from(k)));
+        }
+        let rec = parse(&text, Quantity::Voltage).unwrap();
+        assert_eq!(rec.response_samples, 400);
+        let alone = text.replacen("t/min;", "n;", 1);
+        assert!(
+            err(&alone, Quantity::Voltage).starts_with("pulse.csv:1: unsupported unit \"\u{b0}C\""),
+            "{}",
+            err(&alone, Quantity::Voltage)
+        );
     }
 }
