@@ -123,23 +123,21 @@ pub fn parse_transient_with<R: BufRead>(
     map: &ColumnMap,
 ) -> Result<BinnedTransient> {
     let example = quantity.canonical_header();
-    let (names, what): (&[&str], &str) = match quantity {
-        Quantity::Voltage => (VOLTAGE_NAMES, "voltage"),
-        Quantity::Current => (CURRENT_NAMES, "current"),
+    let (names, units, what): (&[&str], &[BaseUnit], &str) = match quantity {
+        Quantity::Voltage => (VOLTAGE_NAMES, VOLTAGE_UNITS, "voltage"),
+        Quantity::Current => (CURRENT_NAMES, CURRENT_UNITS, "current"),
     };
     map.check_roles(&["time", what])?;
-    let column = |head: &TableHead, role: &str, aliases: &[&str]| -> Result<Vec<usize>> {
-        Ok(match map.column(head, role)? {
-            Some(c) => vec![c],
-            None => head.find_columns(aliases),
-        })
-    };
     let found = TableReader::find_header(reader, path, example, |head| {
-        let has = |role, aliases| column(head, role, aliases).is_ok_and(|c| !c.is_empty());
+        let has = |role, aliases, bases| {
+            candidates(head, map, role, aliases, bases).is_ok_and(|c| !c.is_empty())
+        };
         // The other quantity's column also marks the header, so that the
         // message can say which option the file needs.
-        has("time", TIME_NAMES)
-            && (has(what, names) || has("", VOLTAGE_NAMES) || has("", CURRENT_NAMES))
+        has("time", TIME_NAMES, TIME_UNITS)
+            && (has(what, names, units)
+                || has("", VOLTAGE_NAMES, VOLTAGE_UNITS)
+                || has("", CURRENT_NAMES, CURRENT_UNITS))
     })?;
     let mut table = match found {
         Ok(table) => table,
@@ -207,6 +205,33 @@ pub fn parse_transient_with<R: BufRead>(
     Ok(binned)
 }
 
+/// The columns of `head` that may hold `role`: the user's choice, or the
+/// headings named by `aliases`. A heading whose unit is not one of `bases`
+/// (`T/°C` beside `t/min`: a temperature, not a time) does not name the
+/// role while another heading does; alone, it stays, to be reported with
+/// its unit.
+fn candidates(
+    head: &TableHead,
+    map: &ColumnMap,
+    role: &str,
+    aliases: &[&str],
+    bases: &[BaseUnit],
+) -> Result<Vec<usize>> {
+    if let Some(c) = map.column(head, role)? {
+        return Ok(vec![c]);
+    }
+    let all = head.find_columns(aliases);
+    let fitting: Vec<usize> = all
+        .iter()
+        .copied()
+        .filter(|&c| match split_unit(head.column_name(c)).1 {
+            Some(unit) => unit_factor(&unit, bases) != UnitReading::Unknown,
+            None => true,
+        })
+        .collect();
+    Ok(if fitting.is_empty() { all } else { fitting })
+}
+
 /// The time and value columns of `head` and the factors from their units
 /// to s and V (or A).
 fn choose_columns(
@@ -229,26 +254,6 @@ fn choose_columns(
         Quantity::Voltage => (VOLTAGE_NAMES, VOLTAGE_UNITS, "voltage"),
         Quantity::Current => (CURRENT_NAMES, CURRENT_UNITS, "current"),
     };
-    // A heading whose unit is not one of the quantity's (`T/°C` beside
-    // `t/min`: a temperature, not a time) does not name it while another
-    // heading does; alone, it is reported with its unit.
-    let column = |head: &TableHead, role: &str, aliases: &[&str], bases: &[BaseUnit]| {
-        Ok::<_, Error>(match map.column(head, role)? {
-            Some(c) => vec![c],
-            None => {
-                let all = head.find_columns(aliases);
-                let fitting: Vec<usize> = all
-                    .iter()
-                    .copied()
-                    .filter(|&c| match split_unit(head.column_name(c)).1 {
-                        Some(unit) => unit_factor(&unit, bases) != UnitReading::Unknown,
-                        None => true,
-                    })
-                    .collect();
-                if fitting.is_empty() { all } else { fitting }
-            }
-        })
-    };
     let header_err = |t: &TableHead, msg: String| t.error(t.header_line, msg);
     let mut cols = [0usize; 2];
     let mut scale = [1.0f64; 2];
@@ -256,7 +261,7 @@ fn choose_columns(
         .into_iter()
         .enumerate()
     {
-        let found = column(table, label, aliases, allowed)?;
+        let found = candidates(table, map, label, aliases, allowed)?;
         let col = match found[..] {
             [only] => only,
             [] => {
