@@ -10,6 +10,7 @@ use std::hint::black_box;
 use taumap::io::Spectrum;
 use taumap::kernel::{Basis, BasisKind, ImpedanceKernel};
 use taumap::lambda::LambdaRule;
+use taumap::pipeline::adaptive::AdaptiveOptions;
 use taumap::pipeline::spectrum::problem;
 use taumap::pipeline::{DrtOptions, InvertParams, LambdaChoice, SpectrumPlan, invert};
 use taumap::synth::{cells, reference_spectrum};
@@ -33,6 +34,13 @@ fn benches(c: &mut Criterion) {
     let auto = InvertParams::default();
     c.bench_function("invert/auto_default_rule", |b| {
         b.iter(|| invert(black_box(&s), black_box(&auto)).expect("inverts"))
+    });
+    let adaptive = with_drt(DrtOptions {
+        adaptive: Some(AdaptiveOptions::default()),
+        ..DrtOptions::default()
+    });
+    c.bench_function("invert/auto_adaptive", |b| {
+        b.iter(|| invert(black_box(&s), black_box(&adaptive)).expect("inverts"))
     });
     let all = with_drt(DrtOptions {
         all_curves: true,

@@ -91,6 +91,9 @@ fn main() {
                                 lambda: LambdaChoice::Rule(rule),
                                 penalty_order: order,
                                 all_curves: rule == LambdaRule::Recv,
+                                // The rules alone, with the global penalty
+                                // (the adaptive one starts from their choice).
+                                adaptive: None,
                                 ..DrtOptions::default()
                             },
                             ..InvertParams::default()
@@ -150,7 +153,6 @@ fn main() {
 /// The resolution and accuracy ladder (docs/resolution-ladder.md).
 mod resolution {
     use taumap::io::Spectrum;
-    use taumap::pipeline::adaptive::AdaptiveOptions;
     use taumap::pipeline::{
         DrtOptions, InvertParams, LambdaChoice, LambdaRule, SpectrumInversion, invert,
     };
@@ -233,36 +235,31 @@ mod resolution {
             drt: DrtOptions {
                 lambda: LambdaChoice::Rule(rule),
                 penalty_order: order,
+                adaptive: None,
                 ..DrtOptions::default()
             },
             ..InvertParams::default()
         };
         vec![
             Method::from_params(
-                "default",
-                "discrepancy rule, ridge penalty (k = 0): the default",
-                InvertParams::default(),
+                "global",
+                "discrepancy rule, ridge penalty (k = 0), global penalty alone (--penalty global; the default before the adaptive penalty)",
+                with(LambdaRule::Discrepancy, 0),
             ),
             Method::from_params(
                 "gcv",
-                "GCV, ridge penalty (k = 0)",
+                "GCV, ridge penalty (k = 0), global",
                 with(LambdaRule::Gcv, 0),
             ),
             Method::from_params(
                 "order1",
-                "discrepancy rule, first-derivative penalty (k = 1)",
+                "discrepancy rule, first-derivative penalty (k = 1), global",
                 with(LambdaRule::Discrepancy, 1),
             ),
             Method::from_params(
                 "adaptive",
-                "uniform penalty refined from the default (--penalty adaptive)",
-                InvertParams {
-                    drt: DrtOptions {
-                        adaptive: Some(AdaptiveOptions::default()),
-                        ..DrtOptions::default()
-                    },
-                    ..InvertParams::default()
-                },
+                "uniform penalty refined from the discrepancy rule's solution (--penalty adaptive): the default",
+                InvertParams::default(),
             ),
         ]
     }

@@ -2,10 +2,12 @@
 //! order on synthetic step responses with known distributions (the evidence
 //! behind the transient defaults; see docs/transient-accuracy.md).
 //!
-//! Run: `cargo run --release --example transient_ladder [penalty orders...]`
-//! Prints a Markdown table. Seeds are fixed, so the table is reproducible;
+//! Run: `cargo run --release --example transient_ladder [penalty orders...]
+//! [global] [adaptive]` (without a penalty name, both: the global penalty
+//! and the adaptive one of `--penalty adaptive`). Prints a Markdown table. Seeds are fixed, so the table is reproducible;
 //! `LADDER_VERBOSE=1` lists the failures.
 
+use taumap::pipeline::adaptive::AdaptiveOptions;
 use taumap::pipeline::binning::{BinOptions, BinnedTransient};
 use taumap::pipeline::{LambdaChoice, LambdaRule, StepKind, TransientParams, invert_transient};
 use taumap::synth::{Element, Series, add_white_noise, cells, log_times};
@@ -103,71 +105,82 @@ fn main() {
     } else {
         orders
     };
+    let named: Vec<String> = std::env::args()
+        .skip(1)
+        .filter(|s| s == "global" || s == "adaptive")
+        .collect();
+    let penalties: Vec<&str> = ["global", "adaptive"]
+        .into_iter()
+        .filter(|p| named.is_empty() || named.iter().any(|n| n == p))
+        .collect();
     let seeds = [21u64, 22, 23, 24, 25];
     // White noise relative to the largest response.
     let noises = [1e-3, 5e-3];
     let t = log_times(1e-6, 10.0, 60.0);
     println!(
-        "| order | rule | passed | peak-count ok | mean abs log10 tau error (dec) | mean abs total error (%) |"
+        "| penalty | order | rule | passed | peak-count ok | mean abs log10 tau error (dec) | mean abs total error (%) |"
     );
-    println!("|---|---|---|---|---|---|");
-    for &order in &orders {
-        for rule in LambdaRule::ALL {
-            let (mut pass, mut count_ok, mut total) = (0, 0, 0);
-            let (mut dtau, mut ntau, mut dsum) = (0.0, 0, 0.0);
-            for case in ladder() {
-                let clean: Vec<f64> = t.iter().map(|&t| response(&case, t)).collect();
-                let span = clean.iter().fold(0.0f64, |a, v| a.max(v.abs()));
-                for &noise in &noises {
-                    for &seed in &seeds {
-                        let mut v = clean.clone();
-                        add_white_noise(&mut v, noise * span, seed);
-                        let rec = BinnedTransient::from_samples(&t, &v, &BinOptions::default())
-                            .expect("valid record");
-                        let mut p = TransientParams::new(case.step);
-                        p.drt.lambda = LambdaChoice::Rule(rule);
-                        p.drt.penalty_order = order;
-                        let inv = invert_transient(&rec, &p).expect("inversion runs");
-                        total += 1;
-                        let want: f64 = case.peaks.iter().map(|p| p.1).sum();
-                        let e_sum = (inv.drt.total - want).abs() / want;
-                        dsum += e_sum;
-                        let n_ok = inv.drt.peaks.len() == case.peaks.len();
-                        let mut ok = n_ok && e_sum <= 0.03;
-                        if n_ok {
-                            count_ok += 1;
-                            for (got, (tau, _)) in inv.drt.peaks.iter().zip(&case.peaks) {
-                                let d = (got.tau_s / tau).log10().abs();
-                                dtau += d;
-                                ntau += 1;
-                                // Area against the truth over the same window.
-                                let w = true_mass(&case.cell, got.tau_lo_s, got.tau_hi_s);
-                                ok &= d <= 0.1 && (got.area / w - 1.0).abs() <= 0.05;
+    println!("|---|---|---|---|---|---|---|");
+    for &penalty in &penalties {
+        for &order in &orders {
+            for rule in LambdaRule::ALL {
+                let (mut pass, mut count_ok, mut total) = (0, 0, 0);
+                let (mut dtau, mut ntau, mut dsum) = (0.0, 0, 0.0);
+                for case in ladder() {
+                    let clean: Vec<f64> = t.iter().map(|&t| response(&case, t)).collect();
+                    let span = clean.iter().fold(0.0f64, |a, v| a.max(v.abs()));
+                    for &noise in &noises {
+                        for &seed in &seeds {
+                            let mut v = clean.clone();
+                            add_white_noise(&mut v, noise * span, seed);
+                            let rec = BinnedTransient::from_samples(&t, &v, &BinOptions::default())
+                                .expect("valid record");
+                            let mut p = TransientParams::new(case.step);
+                            p.drt.lambda = LambdaChoice::Rule(rule);
+                            p.drt.penalty_order = order;
+                            p.drt.adaptive = (penalty == "adaptive").then(AdaptiveOptions::default);
+                            let inv = invert_transient(&rec, &p).expect("inversion runs");
+                            total += 1;
+                            let want: f64 = case.peaks.iter().map(|p| p.1).sum();
+                            let e_sum = (inv.drt.total - want).abs() / want;
+                            dsum += e_sum;
+                            let n_ok = inv.drt.peaks.len() == case.peaks.len();
+                            let mut ok = n_ok && e_sum <= 0.03;
+                            if n_ok {
+                                count_ok += 1;
+                                for (got, (tau, _)) in inv.drt.peaks.iter().zip(&case.peaks) {
+                                    let d = (got.tau_s / tau).log10().abs();
+                                    dtau += d;
+                                    ntau += 1;
+                                    // Area against the truth over the same window.
+                                    let w = true_mass(&case.cell, got.tau_lo_s, got.tau_hi_s);
+                                    ok &= d <= 0.1 && (got.area / w - 1.0).abs() <= 0.05;
+                                }
                             }
-                        }
-                        if ok {
-                            pass += 1;
-                        } else if std::env::var_os("LADDER_VERBOSE").is_some() {
-                            let got: Vec<String> = inv
-                                .drt
-                                .peaks
-                                .iter()
-                                .map(|p| format!("{:.2}@{:.4}", p.tau_s.log10(), p.area))
-                                .collect();
-                            eprintln!(
-                                "fail k={order} {rule} {} noise={noise} seed={seed}: {got:?}",
-                                case.name
-                            );
+                            if ok {
+                                pass += 1;
+                            } else if std::env::var_os("LADDER_VERBOSE").is_some() {
+                                let got: Vec<String> = inv
+                                    .drt
+                                    .peaks
+                                    .iter()
+                                    .map(|p| format!("{:.2}@{:.4}", p.tau_s.log10(), p.area))
+                                    .collect();
+                                eprintln!(
+                                    "fail {penalty} k={order} {rule} {} noise={noise} seed={seed}: {got:?}",
+                                    case.name
+                                );
+                            }
                         }
                     }
                 }
+                println!(
+                    "| {penalty} | {order} | {} | {pass}/{total} | {count_ok}/{total} | {:.3} | {:.2} |",
+                    rule.name(),
+                    dtau / ntau.max(1) as f64,
+                    100.0 * dsum / total as f64
+                );
             }
-            println!(
-                "| {order} | {} | {pass}/{total} | {count_ok}/{total} | {:.3} | {:.2} |",
-                rule.name(),
-                dtau / ntau.max(1) as f64,
-                100.0 * dsum / total as f64
-            );
         }
     }
 }

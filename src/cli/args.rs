@@ -83,10 +83,10 @@ pub struct SolveArgs {
         allow_negative_numbers = true
     )]
     pub lambda: String,
-    /// Penalty: global (one lambda, by --lambda) or adaptive (a uniform
-    /// penalty with a weight per grid point, refined from the global
-    /// solution; see README).
-    #[arg(long, value_enum, default_value = "global")]
+    /// Penalty: adaptive (a uniform penalty with a weight per grid point,
+    /// refined from the global solution that --lambda chooses; see README)
+    /// or global (one lambda alone, by --lambda).
+    #[arg(long, value_enum, default_value = "adaptive")]
     pub penalty: PenaltyArg,
     /// Derivative order of the penalty: 0, 1 or 2.
     #[arg(long, value_name = "K", default_value_t = 0)]

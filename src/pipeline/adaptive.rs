@@ -69,7 +69,7 @@ impl Default for AdaptiveOptions {
     fn default() -> Self {
         Self {
             beta0: 1e-6,
-            max_iter: 40,
+            max_iter: 10,
             rel_change: 1e-4,
         }
     }
@@ -80,7 +80,8 @@ impl Default for AdaptiveOptions {
 pub(crate) struct Refined {
     /// The last solution (with the last weights).
     pub solution: TikhonovSolution,
-    /// The problem with the last weights as its penalty (`lambda = 1`).
+    /// The problem with the last weights as its penalty, solved at
+    /// `solution.lambda` (the anchored scale `mu`).
     pub problem: Tikhonov,
     /// Weighted solves done.
     pub iterations: usize,
@@ -141,29 +142,108 @@ fn weighted_curvature_gram(w: &[f64], n: usize, ncols: usize) -> DMatrix<f64> {
     m
 }
 
+/// Bounds of the scale `mu` of the weighted penalty (see
+/// [`anchored`]): the uniform-penalty weights set the penalty's shape and,
+/// through `||A x - b||^2 / N`, its size; the anchor corrects the size by at
+/// most two decades either way (chosen on the resolution ladder,
+/// docs/resolution-ladder.md: with one decade a noise-free sharp ZARC,
+/// phi 0.95, split into three peaks; with three a noise-free broad ZARC,
+/// phi 0.75, broke into ripple). Noise-free data, whose residual target is
+/// at the rounding level, would otherwise drive `mu` towards zero and the
+/// solution into the ripple of an unregularised fit.
+const MU_BOUNDS: (f64, f64) = (1e-2, 1e2);
+
+/// The residual counts as on target within this relative distance
+/// (`|ln(residual / target)| <= 0.05`, about 5 %).
+const ANCHOR_TOLERANCE: f64 = 0.05;
+
+/// Secant steps of one anchoring, at most.
+const ANCHOR_STEPS: usize = 8;
+
+/// Solves `weighted` (penalty `L' diag(w) L`) at the scale `mu` of its
+/// penalty that brings the residual `||A x - b||^2` to `target`, the
+/// residual of the global solution (the discrepancy level when the
+/// discrepancy rule chose lambda): secant steps in `ln mu` on
+/// `ln(residual / target)`, starting from the previous iteration's `mu`,
+/// each step at most a factor 100, `mu` within [`MU_BOUNDS`]. Returns the
+/// solution (its `lambda` is `mu`) and updates `mu`.
+fn anchored(weighted: &Tikhonov, target: f64, free: &[usize], mu: &mut f64) -> TikhonovSolution {
+    let (lo, hi) = (MU_BOUNDS.0.ln(), MU_BOUNDS.1.ln());
+    let misfit = |s: &TikhonovSolution| (s.residual_sq.max(f64::MIN_POSITIVE) / target).ln();
+    let (mut l0, mut s0) = (mu.ln(), weighted.solve(*mu, free));
+    let mut f0 = misfit(&s0);
+    // A residual above the target asks for less penalty (smaller mu).
+    let step = -f0.signum() * 100f64.ln();
+    let mut l1 = (l0 + step).clamp(lo, hi);
+    if f0.abs() <= ANCHOR_TOLERANCE || l1 == l0 {
+        return s0;
+    }
+    let mut s1 = weighted.solve(l1.exp(), &s0.free);
+    let mut f1 = misfit(&s1);
+    for _ in 0..ANCHOR_STEPS {
+        if f1.abs() <= ANCHOR_TOLERANCE {
+            break;
+        }
+        let secant = if (f1 - f0).abs() > 1e-12 {
+            l1 - f1 * (l1 - l0) / (f1 - f0)
+        } else {
+            l1 - f1.signum() * 100f64.ln()
+        };
+        let next = secant
+            .clamp(l1 - 100f64.ln(), l1 + 100f64.ln())
+            .clamp(lo, hi);
+        if next == l1 {
+            break;
+        }
+        let s = weighted.solve(next.exp(), &s1.free);
+        let f = misfit(&s);
+        (l0, s0, f0) = (l1, s1, f1);
+        (l1, s1, f1) = (next, s, f);
+    }
+    // Keep whichever of the last two is nearer the target.
+    let (l, s) = if f0.abs() < f1.abs() {
+        (l0, s0)
+    } else {
+        (l1, s1)
+    };
+    *mu = l.exp();
+    s
+}
+
 /// Refines `start` (a solution of `problem` with a global penalty) by the
 /// uniform-penalty iteration on the first `n_gamma` unknowns; the others
-/// (series terms) stay unpenalised.
+/// (series terms) stay unpenalised. With `anchor`, every weighted solve is
+/// anchored to the residual of `start` ([`anchored`]); without it (no noise
+/// level known: the global rule's choice ran off the lambda grid, as on
+/// noise-free data), the penalty keeps the uniform-penalty scale (`mu = 1`).
 pub(crate) fn refine(
     problem: &Tikhonov,
     n_gamma: usize,
     start: &TikhonovSolution,
     opts: &AdaptiveOptions,
+    anchor: bool,
 ) -> Refined {
     let ncols = problem.ncols();
+    let target = start.residual_sq;
     let mut x = start.x.clone();
     let mut residual_sq = start.residual_sq;
     let mut free = start.free.clone();
+    let mut mu = 1.0_f64;
     let mut last: Option<(TikhonovSolution, Tikhonov)> = None;
     let mut iterations = 0;
     let mut converged = false;
     // An empty (or flat) global solution has no curvature to weigh the
-    // penalty by: there is nothing to refine.
-    let flat = curvature(&x, n_gamma).iter().all(|c| *c == 0.0);
+    // penalty by, and an exact fit no residual to anchor to: there is
+    // nothing to refine.
+    let flat = curvature(&x, n_gamma).iter().all(|c| *c == 0.0) || !(target > 0.0);
     while !flat && iterations < opts.max_iter {
         let w = weights(&x, n_gamma, residual_sq, opts.beta0);
         let weighted = problem.with_penalty(weighted_curvature_gram(&w, n_gamma, ncols));
-        let solution = weighted.solve(1.0, &free);
+        let solution = if anchor {
+            anchored(&weighted, target, &free, &mut mu)
+        } else {
+            weighted.solve(1.0, &free)
+        };
         iterations += 1;
         let change = x
             .iter()

@@ -49,15 +49,17 @@ pub struct DrtOptions {
     pub extension_prior: f64,
     /// Tolerances and iteration limit of every NNLS solve.
     pub nnls: NnlsParams,
-    /// Locally adaptive (uniform) penalty refining the global solution;
-    /// `None` keeps the global penalty alone.
+    /// Locally adaptive (uniform) penalty refining the global solution
+    /// (the default since the resolution ladder of
+    /// docs/resolution-ladder.md); `None` keeps the global penalty alone.
     pub adaptive: Option<AdaptiveOptions>,
 }
 
 impl Default for DrtOptions {
     /// 10 points per decade, one decade of extension, Gaussian basis, ridge
     /// penalty (k = 0), lambda by [`DEFAULT_RULE`] over 1e-8..1e1 at 3 per
-    /// decade with a floor of 1e-6, 5 output samples per grid step, an
+    /// decade with a floor of 1e-6, then the adaptive penalty with its
+    /// default [`AdaptiveOptions`], 5 output samples per grid step, an
     /// extension prior of 1e-2 and the default [`NnlsParams`].
     fn default() -> Self {
         Self {
@@ -79,7 +81,7 @@ impl Default for DrtOptions {
             oversample: 5,
             extension_prior: 1e-2,
             nnls: NnlsParams::default(),
-            adaptive: None,
+            adaptive: Some(AdaptiveOptions::default()),
         }
     }
 }

@@ -18,7 +18,7 @@ use super::options::DrtOptions;
 use super::result::{
     Distribution, DistributionUnit, LambdaSelection, SeriesTerms, SolveInfo, WarmStart,
 };
-use super::select::{Selected, select};
+use super::select::{Selected, refine, select};
 use crate::grid::TauGrid;
 use crate::kernel::Basis;
 use crate::peaks::find_peaks;
@@ -348,13 +348,28 @@ impl Plan {
         (0..self.ncols()).filter(|j| !dropped.contains(j)).collect()
     }
 
-    /// Chooses lambda, solves, and maps the unknowns back to plan columns.
+    /// Chooses lambda, solves, refines by the adaptive penalty when the
+    /// options ask for it, and maps the unknowns back to plan columns.
     pub(crate) fn solve(
         &self,
         problem: &Tikhonov,
         dropped: &[usize],
         warm: Option<&WarmStart>,
     ) -> Solved {
+        let global = self.select_global(problem, dropped, warm);
+        self.finish(problem, dropped, global)
+    }
+
+    /// Chooses lambda and solves with the global penalty only (in the
+    /// problem's columns): the first half of [`Self::solve`], for callers
+    /// that decide something from the global solution (the series terms of
+    /// a spectrum) before [`Self::finish`].
+    pub(crate) fn select_global(
+        &self,
+        problem: &Tikhonov,
+        dropped: &[usize],
+        warm: Option<&WarmStart>,
+    ) -> Selected {
         let keep = self.kept(dropped);
         // Warm starts and free sets are in plan columns; the problem may
         // have fewer.
@@ -367,12 +382,20 @@ impl Plan {
             })
             .unwrap_or_default();
         let split = (self.cv_split.0.as_slice(), self.cv_split.1.as_slice());
+        select(problem, &self.opts, split, &to_problem)
+    }
+
+    /// The second half of [`Self::solve`]: the adaptive refinement (when
+    /// asked for) of `global`, a selection on `problem`, and the unknowns
+    /// mapped back to plan columns.
+    pub(crate) fn finish(&self, problem: &Tikhonov, dropped: &[usize], global: Selected) -> Solved {
+        let keep = self.kept(dropped);
         let Selected {
             solution,
             selection,
             info,
             noise_rms,
-        } = select(problem, &self.opts, split, &to_problem, self.n_gamma);
+        } = refine(problem, global, &self.opts, self.n_gamma);
         let mut x = vec![0.0; self.ncols()];
         for (k, &j) in keep.iter().enumerate() {
             x[j] = solution.x[k];

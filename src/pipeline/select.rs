@@ -45,11 +45,9 @@ fn noise_rms(path: &LambdaPath, rules: &[lambda::RuleCurve]) -> Option<f64> {
     Some(lambda::gcv::noise_variance(path, i).sqrt())
 }
 
-/// Chooses `lambda` as `opts` asks and solves at it, warm-started from
-/// `warm` (a free set of a neighbouring solution, or empty). With
-/// [`DrtOptions::adaptive`], the solution at the chosen lambda is refined
-/// by the uniform penalty on the first `n_gamma` unknowns (the basis
-/// coefficients).
+/// Chooses `lambda` as `opts` asks and solves at it with the global
+/// penalty, warm-started from `warm` (a free set of a neighbouring
+/// solution, or empty); [`refine`] applies the adaptive penalty after.
 ///
 /// `cv_split` holds the two blocks of rows that the cross-validation rule
 /// ([`LambdaRule::Recv`]) fits against each other: the real and imaginary
@@ -59,7 +57,6 @@ pub(crate) fn select(
     opts: &DrtOptions,
     cv_split: (&[usize], &[usize]),
     warm: &[usize],
-    n_gamma: usize,
 ) -> Selected {
     let mut start: Vec<usize> = warm.to_vec();
     let mut path_status = SolveStatus::Converged;
@@ -137,17 +134,8 @@ pub(crate) fn select(
             }
         }
     };
-    let mut solution = problem.solve(selection.lambda, &start);
-    let mut dof = problem.influence_trace(selection.lambda, &solution.free);
-    let mut adaptive_iterations = None;
-    let mut adaptive_converged = false;
-    if let Some(a) = &opts.adaptive {
-        let refined = adaptive::refine(problem, n_gamma, &solution, a);
-        dof = refined.problem.influence_trace(1.0, &refined.solution.free);
-        solution = refined.solution;
-        adaptive_iterations = Some(refined.iterations);
-        adaptive_converged = refined.converged;
-    }
+    let solution = problem.solve(selection.lambda, &start);
+    let dof = problem.influence_trace(selection.lambda, &solution.free);
     // A degenerate subproblem at a tiny lambda of the path does not taint
     // the final answer; an iteration limit or a non-finite value does.
     let mut status = solution.info.status;
@@ -163,13 +151,60 @@ pub(crate) fn select(
         equations: problem.nrows(),
         unknowns: problem.ncols(),
         dof,
-        adaptive_iterations,
-        adaptive_converged,
+        adaptive_iterations: None,
+        adaptive_converged: false,
     };
     Selected {
         solution,
         selection,
         info,
         noise_rms: noise,
+    }
+}
+
+/// Refines a global selection by the uniform penalty of
+/// [`DrtOptions::adaptive`] on the first `n_gamma` unknowns (the basis
+/// coefficients); without it, returns `global` as it is. The lambda
+/// selection (rule, curves, floor) stays the global one: it is where the
+/// refinement starts and what its residual is anchored to.
+pub(crate) fn refine(
+    problem: &Tikhonov,
+    global: Selected,
+    opts: &DrtOptions,
+    n_gamma: usize,
+) -> Selected {
+    let Some(a) = &opts.adaptive else {
+        return global;
+    };
+    // The residual of the global solution is a noise level to anchor to
+    // only when the rule found an interior minimum (or the user fixed
+    // lambda); a choice on a grid edge says the data showed none.
+    let anchor = global.selection.grid_edge.is_none();
+    let refined = adaptive::refine(problem, n_gamma, &global.solution, a, anchor);
+    let solution = refined.solution;
+    let status = worst(solution.info.status, {
+        let p = global.info.path_status;
+        if severity(p) >= severity(SolveStatus::MaxIterations) {
+            p
+        } else {
+            SolveStatus::Converged
+        }
+    });
+    let info = SolveInfo {
+        iterations: solution.info.iterations,
+        status,
+        kkt_residual: solution.info.kkt_residual,
+        shift: solution.info.shift,
+        dof: refined
+            .problem
+            .influence_trace(solution.lambda, &solution.free),
+        adaptive_iterations: Some(refined.iterations),
+        adaptive_converged: refined.converged,
+        ..global.info
+    };
+    Selected {
+        solution,
+        info,
+        ..global
     }
 }

@@ -28,6 +28,7 @@
 use super::options::DrtOptions;
 use super::plan::{EdgeHints, Plan, Solved};
 use super::result::{DistributionUnit, Inversion, SeriesTerms, WarmStart};
+use super::select::Selected;
 use crate::io::Spectrum;
 use crate::kernel::{Basis, ImpedanceKernel};
 use crate::solve::Tikhonov;
@@ -394,9 +395,9 @@ impl SpectrumPlan {
     /// The series columns in automatic mode that the data do not support:
     /// each is dropped when removing it raises the weighted residual by
     /// less than [`LR_THRESHOLD`] residual variances, at the lambda the
-    /// full model chose (global penalty).
-    fn unsupported_terms(&self, s: &Scaled, full: &Tikhonov, solved: &Solved) -> Vec<usize> {
-        let lambda = solved.selection.lambda;
+    /// full model chose, with the global penalty (`global`).
+    fn unsupported_terms(&self, s: &Scaled, full: &Tikhonov, global: &Selected) -> Vec<usize> {
+        let lambda = global.selection.lambda;
         let auto: Vec<usize> = [
             (self.col_l, self.params.inductance == InductanceMode::Auto),
             (
@@ -411,16 +412,7 @@ impl SpectrumPlan {
             return Vec::new();
         }
         let rows = full.nrows() as f64;
-        // The full model's residual and effective parameters at lambda with
-        // the global penalty: the final solve's own, unless the adaptive
-        // penalty replaced it.
-        let (residual_sq, dof) = if self.params.drt.adaptive.is_none() {
-            (solved.residual_rms.powi(2) * rows, solved.info.dof)
-        } else {
-            let base = full.solve(lambda, &[]);
-            let dof = full.influence_trace(lambda, &base.free);
-            (base.residual_sq, dof)
-        };
+        let (residual_sq, dof) = (global.solution.residual_sq, global.info.dof);
         // A relative noise floor of 1e-9 keeps exact data from dividing by 0.
         let floor = 1e-18 * crate::linalg::dot(&s.b, &s.b) / rows;
         let sigma2 = (residual_sq / (rows - dof).max(1.0)).max(floor);
@@ -436,14 +428,16 @@ impl SpectrumPlan {
         dropped
     }
 
-    /// Solves `s`: the full model, then, when a series term in automatic
-    /// mode is not supported by the data, the model without it.
+    /// Solves `s`: the full model with the global penalty, then, when a
+    /// series term in automatic mode is not supported by the data, the
+    /// model without it; the adaptive penalty (when asked for) refines only
+    /// the model kept.
     fn solve_scaled(&self, s: &Scaled, warm: Option<&WarmStart>) -> Result<(Solved, Vec<usize>)> {
         let full = self.problem_for(s, &[])?;
-        let solved = self.plan.solve(&full, &[], warm);
-        let dropped = self.unsupported_terms(s, &full, &solved);
+        let global = self.plan.select_global(&full, &[], warm);
+        let dropped = self.unsupported_terms(s, &full, &global);
         if dropped.is_empty() {
-            return Ok((solved, dropped));
+            return Ok((self.plan.finish(&full, &[], global), dropped));
         }
         let keep: Vec<usize> = (0..full.ncols()).filter(|j| !dropped.contains(j)).collect();
         let reduced = full.keep_columns(&keep);

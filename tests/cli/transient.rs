@@ -82,13 +82,34 @@ fn demo_pulse_inverts_to_the_peaks_of_the_demo_spectrum() {
         jt["peaks"].as_array().unwrap(),
         js["peaks"].as_array().unwrap(),
     );
-    assert_eq!(pt.len(), ps.len(), "{}\n{}", t.stdout, s.stdout);
-    for (a, b) in pt.iter().zip(ps) {
-        let (ta, tb) = (a["tau_s"].as_f64().unwrap(), b["tau_s"].as_f64().unwrap());
-        assert!((ta / tb).log10().abs() < 0.1, "tau {ta} vs {tb}");
-        // Areas depend on where the minima split neighbouring processes
-        // (the gas-diffusion response has a second, small line at 22 ms).
-        let (ra, rb) = (a["r_ohm"].as_f64().unwrap(), b["r_ohm"].as_f64().unwrap());
+    let tau = |p: &serde_json::Value| p["tau_s"].as_f64().unwrap();
+    let area = |p: &serde_json::Value| p["r_ohm"].as_f64().unwrap();
+    let near = |x: f64, y: f64| (x / y).log10().abs() < 0.1;
+    // A peak the spectrum does not show may only be the gas diffusion's
+    // second and third lines: the finite Warburg element of the demo
+    // (tau_W 0.5 s, 0.050 ohm) has lines at tau_W / ((k - 1/2)^2 pi^2),
+    // 22.5 ms and 8.1 ms, of 8 R / ((2k - 1)^2 pi^2) = 5.0 and 1.8 mohm
+    // (J. R. Macdonald, Impedance Spectroscopy, 1987, for the transmissive
+    // finite-length diffusion impedance). Its area belongs to the
+    // diffusion's main peak, with which the spectrum merges it.
+    let mut extra = 0.0;
+    for a in pt {
+        if !ps.iter().any(|b| near(tau(a), tau(b))) {
+            assert!(
+                (5e-3..30e-3).contains(&tau(a)) && area(a) < 0.015,
+                "unexpected peak {a}\n{}",
+                t.stdout
+            );
+            extra += area(a);
+        }
+    }
+    // Every peak of the spectrum has its counterpart in the pulse response.
+    for b in ps {
+        let a = pt.iter().find(|a| near(tau(a), tau(b)));
+        let a = a.unwrap_or_else(|| panic!("no peak near {b}\n{}\n{}", t.stdout, s.stdout));
+        // Areas depend on where the minima split neighbouring processes.
+        let slow = tau(b) > 0.1;
+        let (ra, rb) = (area(a) + if slow { extra } else { 0.0 }, area(b));
         assert!((ra / rb - 1.0).abs() < 0.15, "r {ra} vs {rb}");
     }
     for key in ["r_inf_ohm", "r_pol_ohm"] {
