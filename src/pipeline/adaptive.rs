@@ -235,7 +235,7 @@ pub(crate) fn refine(
     // An empty (or flat) global solution has no curvature to weigh the
     // penalty by, and an exact fit no residual to anchor to: there is
     // nothing to refine.
-    let flat = curvature(&x, n_gamma).iter().all(|c| *c == 0.0) || !(target > 0.0);
+    let flat = curvature(&x, n_gamma).iter().all(|c| *c == 0.0) || target.is_nan() || target <= 0.0;
     while !flat && iterations < opts.max_iter {
         let w = weights(&x, n_gamma, residual_sq, opts.beta0);
         let weighted = problem.with_penalty(weighted_curvature_gram(&w, n_gamma, ncols));
