@@ -72,6 +72,9 @@ pub fn print_warnings(input: &Path, drt: &Distribution) {
     for w in &drt.warnings {
         eprintln!("warning: {}: {w}", input.display());
     }
+    if let Some(n) = drt.lambda.note() {
+        eprintln!("note: {}: {n}", input.display());
+    }
 }
 
 /// A value for the console: six decimals in the range people read that way

@@ -92,6 +92,24 @@ impl LambdaSelection {
             _ => None,
         }
     }
+
+    /// A sentence for the user when a bound, not the rule, decided lambda
+    /// and no warning says so already: the rule's choice ran off the bottom
+    /// of its grid and was raised to the floor (the data show no noise
+    /// level, as noise-free or heavily averaged data do). `None` otherwise.
+    pub fn note(&self) -> Option<String> {
+        if !self.floored || self.warning().is_some() {
+            return None;
+        }
+        let rule = self.rule?;
+        let lo = self.curves.as_ref()?.lambda.first()?;
+        Some(format!(
+            "the {rule} rule ran off the bottom of its lambda grid ({lo:.0e}): the data show no \
+             noise level; lambda raised to the floor {:.0e} (summary.json: lambda_floored; a \
+             fixed --lambda to change it)",
+            self.lambda
+        ))
+    }
 }
 
 /// Diagnostics of the solves behind one distribution.

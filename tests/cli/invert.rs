@@ -608,3 +608,60 @@ fn frequency_band_limits_the_fitted_points() {
         "o",
     );
 }
+
+/// Exact (noise-free) data give the GCV rule no minimum: its choice runs
+/// off the bottom of the lambda grid and the floor decides. That is said on
+/// stderr as a note (not a warning: it is the designed response) and in
+/// summary.json; the discrepancy rule, which keeps an interior choice on
+/// the same data, says nothing.
+#[test]
+fn a_floor_that_decides_lambda_is_said() {
+    let dir = tempdir();
+    // 10 ohm + ZARC(50 ohm, 1 ms, phi 0.9): Z = R0 + R / (1 + (j w tau)^phi)
+    // (K. S. Cole and R. H. Cole, J. Chem. Phys. 9, 341, 1941), 81 points.
+    let mut csv = String::from("frequency_hz,z_re_ohm,z_im_ohm\n");
+    for k in 0..=80 {
+        let f = 10f64.powf(-2.0 + k as f64 / 10.0);
+        let x = (2.0 * std::f64::consts::PI * f * 1e-3).powf(0.9);
+        let (c, s) = (
+            (0.45 * std::f64::consts::PI).cos(),
+            (0.45 * std::f64::consts::PI).sin(),
+        );
+        // 1 + x (cos + j sin) in the denominator.
+        let (dr, di) = (1.0 + x * c, x * s);
+        let d2 = dr * dr + di * di;
+        csv.push_str(&format!(
+            "{f},{},{}\n",
+            10.0 + 50.0 * dr / d2,
+            -50.0 * di / d2
+        ));
+    }
+    let input = dir.path().join("zarc.csv");
+    std::fs::write(&input, csv).unwrap();
+    for (rule, floored) in [("gcv", true), ("discrepancy", false)] {
+        let out = dir.path().join(rule);
+        let run = taumap(
+            dir.path(),
+            &[
+                "invert",
+                input.to_str().unwrap(),
+                "--lambda",
+                rule,
+                "--no-plots",
+                "--out",
+                out.to_str().unwrap(),
+            ],
+        );
+        assert_eq!(run.code, 0, "{}", run.explain());
+        let summary: serde_json::Value =
+            serde_json::from_str(&std::fs::read_to_string(out.join("summary.json")).unwrap())
+                .unwrap();
+        assert_eq!(summary["lambda_floored"], floored, "{rule}: {summary}");
+        assert_eq!(
+            run.stderr.contains("raised to the floor 1e-6"),
+            floored,
+            "{rule}: {}",
+            run.explain()
+        );
+    }
+}
