@@ -10,7 +10,6 @@ use std::hint::black_box;
 use taumap::io::Spectrum;
 use taumap::kernel::{Basis, BasisKind, ImpedanceKernel};
 use taumap::lambda::LambdaRule;
-use taumap::pipeline::adaptive::AdaptiveOptions;
 use taumap::pipeline::spectrum::problem;
 use taumap::pipeline::{DrtOptions, InvertParams, LambdaChoice, SpectrumPlan, invert};
 use taumap::synth::{cells, reference_spectrum};
@@ -35,12 +34,14 @@ fn benches(c: &mut Criterion) {
     c.bench_function("invert/auto_default_rule", |b| {
         b.iter(|| invert(black_box(&s), black_box(&auto)).expect("inverts"))
     });
-    let adaptive = with_drt(DrtOptions {
-        adaptive: Some(AdaptiveOptions::default()),
+    // The default refines by the adaptive penalty; this is the lambda rule
+    // with the global penalty alone (`--penalty global`).
+    let global = with_drt(DrtOptions {
+        adaptive: None,
         ..DrtOptions::default()
     });
-    c.bench_function("invert/auto_adaptive", |b| {
-        b.iter(|| invert(black_box(&s), black_box(&adaptive)).expect("inverts"))
+    c.bench_function("invert/auto_global", |b| {
+        b.iter(|| invert(black_box(&s), black_box(&global)).expect("inverts"))
     });
     let all = with_drt(DrtOptions {
         all_curves: true,

@@ -261,6 +261,17 @@ mod resolution {
                 "uniform penalty refined from the discrepancy rule's solution (--penalty adaptive): the default",
                 InvertParams::default(),
             ),
+            Method::from_params(
+                "adaptive-order2",
+                "uniform penalty refined from the discrepancy rule's solution with the second-derivative penalty (k = 2)",
+                InvertParams {
+                    drt: DrtOptions {
+                        penalty_order: 2,
+                        ..DrtOptions::default()
+                    },
+                    ..InvertParams::default()
+                },
+            ),
         ]
     }
 
