@@ -110,6 +110,9 @@ pub(crate) struct Refined {
     pub iterations: usize,
     /// The change fell below the tolerance.
     pub converged: bool,
+    /// The relative change of the coefficients in the last solve (0 when
+    /// nothing was refined).
+    pub change_rel: f64,
 }
 
 /// Second differences `c_k` of the first `n` entries of `x`, with zeros
@@ -255,6 +258,7 @@ pub(crate) fn refine(
     let mut last: Option<(TikhonovSolution, Tikhonov)> = None;
     let mut iterations = 0;
     let mut converged = false;
+    let mut change_rel = 0.0;
     // An empty (or flat) global solution has no curvature to weigh the
     // penalty by, and an exact fit no residual to anchor to: there is
     // nothing to refine.
@@ -275,6 +279,7 @@ pub(crate) fn refine(
             .sum::<f64>()
             .sqrt();
         let size = solution.x.iter().map(|v| v * v).sum::<f64>().sqrt();
+        change_rel = if size > 0.0 { change / size } else { 0.0 };
         x.clone_from(&solution.x);
         residual_sq = solution.residual_sq;
         free.clone_from(&solution.free);
@@ -290,6 +295,7 @@ pub(crate) fn refine(
         problem,
         iterations,
         converged,
+        change_rel,
     }
 }
 

@@ -142,6 +142,12 @@ pub struct SolveInfo {
     /// The adaptive iteration stopped on its change tolerance (false: on
     /// its iteration limit; also false without the adaptive penalty).
     pub adaptive_converged: bool,
+    /// The relative change `||x_new - x|| / ||x_new||` of the coefficients
+    /// in the last adaptive solve (`None`: global penalty). The refinement
+    /// stops after [`AdaptiveOptions::max_iter`](super::adaptive::AdaptiveOptions)
+    /// solves by design; this says how settled it was (on the resolution
+    /// ladder: median 0.8 %, 90 % of spectra below 4 %).
+    pub adaptive_change_rel: Option<f64>,
 }
 
 impl SolveInfo {

@@ -153,6 +153,7 @@ pub(crate) fn select(
         dof,
         adaptive_iterations: None,
         adaptive_converged: false,
+        adaptive_change_rel: None,
     };
     Selected {
         solution,
@@ -200,6 +201,7 @@ pub(crate) fn refine(
             .influence_trace(solution.lambda, &solution.free),
         adaptive_iterations: Some(refined.iterations),
         adaptive_converged: refined.converged,
+        adaptive_change_rel: Some(refined.change_rel),
         ..global.info
     };
     Selected {

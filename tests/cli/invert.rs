@@ -665,3 +665,44 @@ fn a_floor_that_decides_lambda_is_said() {
         );
     }
 }
+
+/// The penalty used is in summary.json: `settings.penalty` and, for the
+/// adaptive one (the default), how many weighted solves it took and how
+/// settled the last one was; `--penalty global` leaves those null.
+#[test]
+fn the_penalty_and_its_refinement_are_reported() {
+    let dir = tempdir();
+    let input = dir.path().join("voigt.csv");
+    std::fs::write(&input, voigt_csv()).unwrap();
+    for penalty in [None, Some("global"), Some("adaptive")] {
+        let out = dir.path().join(penalty.unwrap_or("default"));
+        let mut args = vec![
+            "invert",
+            input.to_str().unwrap(),
+            "--no-plots",
+            "--out",
+            out.to_str().unwrap(),
+        ];
+        if let Some(p) = penalty {
+            args.extend(["--penalty", p]);
+        }
+        let run = taumap(dir.path(), &args);
+        assert_eq!(run.code, 0, "{}", run.explain());
+        let j: serde_json::Value =
+            serde_json::from_str(&std::fs::read_to_string(out.join("summary.json")).unwrap())
+                .unwrap();
+        let adaptive = penalty != Some("global");
+        let want = if adaptive { "adaptive" } else { "global" };
+        assert_eq!(j["settings"]["penalty"], want, "{j}");
+        let solver = &j["solver"];
+        if adaptive {
+            let n = solver["adaptive_iterations"].as_u64().unwrap();
+            assert!((1..=10).contains(&n), "{solver}");
+            let change = solver["adaptive_change_rel"].as_f64().unwrap();
+            assert!((0.0..0.5).contains(&change), "{solver}");
+        } else {
+            assert!(solver["adaptive_iterations"].is_null(), "{solver}");
+            assert!(solver["adaptive_change_rel"].is_null(), "{solver}");
+        }
+    }
+}
