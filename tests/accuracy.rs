@@ -419,11 +419,12 @@ fn no_spurious_peak_beside_voigt_lines_and_zarc_pairs() {
         },
         ..InvertParams::default()
     };
-    let mut global_spurious = 0;
+    let (mut global_spurious, mut adaptive_spurious) = (0, 0);
     for (k, (cell, taus, largest)) in cases.iter().enumerate() {
         for seed in 1..=5 {
             let s = spectrum(cell, 1e-3, seed);
             let inv = run(&s);
+            adaptive_spurious += spurious(&inv, taus, *largest);
             assert_eq!(
                 spurious(&inv, taus, *largest),
                 0,
@@ -445,5 +446,7 @@ fn no_spurious_peak_beside_voigt_lines_and_zarc_pairs() {
             global_spurious += spurious(&invert(&s, &global).unwrap(), taus, *largest).min(1);
         }
     }
-    assert!(global_spurious >= 3, "{global_spurious}");
+    // The reason for the adaptive default: the global penalty alone is
+    // worse on the same spectra.
+    assert!(global_spurious > adaptive_spurious, "{global_spurious}");
 }

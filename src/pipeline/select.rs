@@ -177,20 +177,17 @@ pub(crate) fn refine(
     let Some(a) = &opts.adaptive else {
         return global;
     };
-    // The residual of the global solution is a noise level to anchor to
-    // only when the rule found an interior minimum (or the user fixed
-    // lambda); a choice on a grid edge says the data showed none.
-    let anchor = global.selection.grid_edge.is_none();
+    // The residual of the global solution is a noise level to anchor to,
+    // unless the rule's choice ran off the bottom of the grid: then the
+    // data showed none (GCV on exact data). A choice on the top edge still
+    // has a real residual (heavy noise, or a model that misses), and
+    // without the anchor the weights would feed on it.
+    let anchor = global.selection.grid_edge != Some(GridEdge::Lower);
     let refined = adaptive::refine(problem, n_gamma, &global.solution, a, anchor);
     let solution = refined.solution;
-    let status = worst(solution.info.status, {
-        let p = global.info.path_status;
-        if severity(p) >= severity(SolveStatus::MaxIterations) {
-            p
-        } else {
-            SolveStatus::Converged
-        }
-    });
+    // Every solve counts: the global one's status and its path's serious
+    // failures, and the worst of the weighted solves.
+    let status = worst(global.info.status, refined.status);
     let info = SolveInfo {
         iterations: solution.info.iterations,
         status,
@@ -201,7 +198,7 @@ pub(crate) fn refine(
             .influence_trace(solution.lambda, &solution.free),
         adaptive_iterations: Some(refined.iterations),
         adaptive_converged: refined.converged,
-        adaptive_change_rel: Some(refined.change_rel),
+        adaptive_change_rel: (refined.iterations > 0).then_some(refined.change_rel),
         ..global.info
     };
     Selected {

@@ -445,8 +445,10 @@ impl SpectrumPlan {
     }
 
     /// The scaled regularised problem `min ||A x - b||^2 + lambda x'Mx,
-    /// x >= 0` that [`SpectrumPlan::invert`] solves for this response, for
-    /// independent solvers and diagnostics. Columns: basis coefficients,
+    /// x >= 0` with the global penalty, on the model [`SpectrumPlan::invert`]
+    /// keeps for this response, for independent solvers and diagnostics
+    /// (with the adaptive penalty, the default, it is where the refinement
+    /// starts, not its last weighted problem). Columns: basis coefficients,
     /// then R_inf, then the inductance and series-capacitance columns when
     /// modelled; all in units of the scale of the module documentation (`max |Re Z|`).
     pub fn problem(&self, z_re_ohm: &[f64], z_im_ohm: &[f64]) -> Result<Tikhonov> {

@@ -597,8 +597,10 @@ impl TransientPlan {
         Ok(record.bins.iter().map(|b| b.value).collect())
     }
 
-    /// The scaled regularised problem that [`TransientPlan::invert`] solves
-    /// for `record`, for independent solvers and diagnostics. Columns:
+    /// The scaled regularised problem with the global penalty that
+    /// [`TransientPlan::invert`] solves for `record` (with the adaptive
+    /// penalty, the default, where its refinement starts), for independent
+    /// solvers and diagnostics. Columns:
     /// basis coefficients, the constant (R_inf, G_inf, or the relaxation
     /// offset), then the series capacitance column when modelled; all in
     /// units of the largest response.

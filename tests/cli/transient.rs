@@ -88,7 +88,7 @@ fn demo_pulse_inverts_to_the_peaks_of_the_demo_spectrum() {
     // A peak the spectrum does not show may only be the gas diffusion's
     // second and third lines: the finite Warburg element of the demo
     // (tau_W 0.5 s, 0.050 ohm) has lines at tau_W / ((k - 1/2)^2 pi^2),
-    // 22.5 ms and 8.1 ms, of 8 R / ((2k - 1)^2 pi^2) = 5.0 and 1.8 mohm
+    // 22.5 ms and 8.1 ms, of 8 R / ((2k - 1)^2 pi^2) = 4.5 and 1.6 mohm
     // (J. R. Macdonald, Impedance Spectroscopy, 1987, for the transmissive
     // finite-length diffusion impedance). Its area belongs to the
     // diffusion's main peak, with which the spectrum merges it.
