@@ -60,6 +60,7 @@ pub mod error;
 pub mod grid;
 pub mod io;
 pub mod kernel;
+pub mod kk;
 pub mod lambda;
 pub mod linalg;
 pub mod peaks;
@@ -70,6 +71,7 @@ pub mod report;
 pub mod solve;
 #[cfg(feature = "synth")]
 pub mod synth;
+pub mod tmvn;
 
 pub use error::{Error, Result};
 pub use pipeline::{Distribution, Plan, SpectrumPlan, TransientPlan};

@@ -11,6 +11,8 @@ mod errors;
 mod errors_doc;
 #[path = "cli/invert.rs"]
 mod invert;
+#[path = "cli/kk.rs"]
+mod kk;
 #[path = "cli/plots.rs"]
 mod plots;
 #[path = "cli/readers.rs"]

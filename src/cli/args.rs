@@ -19,6 +19,9 @@ pub enum Command {
     Invert(InvertArgs),
     /// Invert a step transient (CSV) onto a distribution of time constants.
     Transient(TransientArgs),
+    /// Test an impedance spectrum (CSV) for Kramers-Kronig validity
+    /// (linear, causal, stable while measured).
+    Kk(KkArgs),
     /// Write the demo scenario into demo-data/ and invert it.
     Demo(DemoArgs),
 }
@@ -187,6 +190,52 @@ pub struct InvertArgs {
     /// Shared solver options.
     #[command(flatten)]
     pub solve: SolveArgs,
+}
+
+/// `taumap kk`.
+#[derive(Args, Debug)]
+pub struct KkArgs {
+    /// Input spectrum, as for `invert`; `-` reads standard input (then
+    /// --out is needed).
+    #[arg(value_name = "IN.csv")]
+    pub input: PathBuf,
+    /// Output directory (created if missing); default <stem>-kk/ beside the input.
+    #[arg(long, value_name = "DIR")]
+    pub out: Option<PathBuf>,
+    /// Relative noise level of the measurement (0.001 = 0.1 % of |Z| on each
+    /// of the real and imaginary parts); default: estimated from the
+    /// residuals.
+    #[arg(long, value_name = "X", allow_negative_numbers = true)]
+    pub noise_rel: Option<f64>,
+    /// Series inductance in the test's model.
+    #[arg(long, value_enum, default_value = "auto")]
+    pub inductance: InductanceArg,
+    /// Series capacitance in the test's model (a mode is given with `=`).
+    #[arg(
+        long,
+        value_enum,
+        default_value = "auto",
+        num_args = 0..=1,
+        require_equals = true,
+        default_missing_value = "on",
+        value_name = "auto|on|off"
+    )]
+    pub series_capacitance: CapacitanceArg,
+    /// Test only the points at or above this frequency (Hz).
+    #[arg(long, value_name = "HZ", allow_negative_numbers = true)]
+    pub f_min: Option<f64>,
+    /// Test only the points at or below this frequency (Hz).
+    #[arg(long, value_name = "HZ", allow_negative_numbers = true)]
+    pub f_max: Option<f64>,
+    /// Column choices.
+    #[command(flatten)]
+    pub columns: ColumnArgs,
+    /// Print summary.json to standard output.
+    #[arg(long)]
+    pub json: bool,
+    /// Skip the SVG and PNG plots.
+    #[arg(long)]
+    pub no_plots: bool,
 }
 
 /// `taumap transient`.

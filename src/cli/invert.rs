@@ -9,6 +9,7 @@ use std::path::{Path, PathBuf};
 use taumap::io::Spectrum;
 use taumap::io::spectrum::{SpectrumLayout, read_spectrum_with};
 use taumap::kernel::BasisKind;
+use taumap::kk::{KkOptions, KkTest, kk_test};
 use taumap::pipeline::adaptive::AdaptiveOptions;
 use taumap::pipeline::{
     CapacitanceMode, DrtOptions, InductanceMode, InvertParams, LambdaChoice, LambdaRule,
@@ -53,6 +54,11 @@ pub fn drt_options_from(solve: &SolveArgs, default_per_decade: f64) -> Result<Dr
 
 /// Default output directory: `<stem>-taumap/` beside the input.
 pub fn default_out_dir(input: &Path) -> PathBuf {
+    out_dir_named(input, "taumap")
+}
+
+/// `<stem>-<suffix>/` beside the input.
+pub fn out_dir_named(input: &Path, suffix: &str) -> PathBuf {
     let stem = input
         .file_stem()
         .map(|s| s.to_string_lossy().into_owned())
@@ -60,7 +66,7 @@ pub fn default_out_dir(input: &Path) -> PathBuf {
     input
         .parent()
         .unwrap_or_else(|| Path::new("."))
-        .join(format!("{stem}-taumap"))
+        .join(format!("{stem}-{suffix}"))
 }
 
 /// Names the input file in an error about its data, but not in an error
@@ -95,7 +101,7 @@ pub fn out_dir(input: &Path, out: Option<&Path>) -> Result<PathBuf> {
 
 /// The points of `spectrum` within `--f-min`/`--f-max` (all without
 /// them); says on stderr how many are kept.
-fn band(
+pub(super) fn band(
     input: &Path,
     spectrum: Spectrum,
     f_min: Option<f64>,
@@ -144,7 +150,7 @@ fn band(
 
 /// Says on stderr how the reader took a file whose layout is not the
 /// canonical one: skipped free text, converted units, its encoding.
-fn report_layout(input: &Path, layout: &SpectrumLayout) {
+pub(super) fn report_layout(input: &Path, layout: &SpectrumLayout) {
     let name = if input == Path::new("-") {
         "<stdin>".to_string()
     } else {
@@ -235,11 +241,36 @@ pub fn invert_into(
 ) -> Result<(Summary, Vec<PathBuf>)> {
     // Whole-spectrum problems name the file they came from.
     let mut inv = in_file(invert(spectrum, params), input)?;
+    let kk = kk_verdict(input, spectrum, params);
     print_warnings(input, &inv.drt);
     inv.drt.warnings.splice(0..0, reader_warnings);
-    let summary = Summary::new(&input.display().to_string(), spectrum, params, &inv);
+    if let Some(w) = kk.as_ref().and_then(|t| t.failure()) {
+        eprintln!("warning: {}: {w}", input.display());
+        inv.drt.warnings.push(w);
+    }
+    let summary =
+        Summary::new(&input.display().to_string(), spectrum, params, &inv).with_kk(kk.as_ref());
     let written = write_outputs(out, spectrum, &inv, &summary, plots)?;
     Ok((summary, written))
+}
+
+/// The Kramers-Kronig test of the spectrum about to be inverted, with the
+/// inversion's series-term modes (a failure is said by the caller, after
+/// the inversion's own warnings; the inversion still runs). `None`, with a
+/// note, when the test cannot run (fewer points than it needs).
+fn kk_verdict(input: &Path, spectrum: &Spectrum, params: &InvertParams) -> Option<KkTest> {
+    let opts = KkOptions {
+        inductance: params.inductance,
+        capacitance: params.series_capacitance,
+        ..KkOptions::default()
+    };
+    match kk_test(spectrum, &opts) {
+        Ok(t) => Some(t),
+        Err(e) => {
+            eprintln!("note: {}: no Kramers-Kronig verdict: {e}", input.display());
+            None
+        }
+    }
 }
 
 /// Prints either the JSON summary (with `--json`) or a short human report.

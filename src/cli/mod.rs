@@ -3,6 +3,7 @@
 pub mod args;
 pub mod demo;
 pub mod invert;
+pub mod kk;
 pub mod output;
 pub mod transient;
 
@@ -14,6 +15,7 @@ pub fn run(cli: Cli) -> Result<()> {
     match cli.command {
         Command::Invert(a) => invert::run(&a),
         Command::Transient(a) => transient::run(&a),
+        Command::Kk(a) => kk::run(&a),
         Command::Demo(a) => demo::run(&a),
     }
 }

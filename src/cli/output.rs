@@ -10,11 +10,11 @@ use taumap::pipeline::Distribution;
 use taumap::plot::{self, ImageFormat};
 use taumap::report;
 
-/// Every file an inversion command may write into its output directory. A
-/// run removes those of them it does not write itself (an earlier run's
-/// plots, a `lambda.csv` from before a fixed-lambda run), never anything
-/// else.
-pub const OUTPUT_FILES: [&str; 14] = [
+/// Every file a command (inversion or test) may write into its output
+/// directory. A run removes those of them it does not write itself (an
+/// earlier run's plots, a `lambda.csv` from before a fixed-lambda run, the
+/// files of another command), never anything else.
+pub const OUTPUT_FILES: [&str; 17] = [
     "drt.csv",
     "fit.csv",
     "lambda.csv",
@@ -29,6 +29,9 @@ pub const OUTPUT_FILES: [&str; 14] = [
     "bode.png",
     "transient.svg",
     "transient.png",
+    "residuals.csv",
+    "kk.svg",
+    "kk.png",
 ];
 
 /// An empty set of outputs for `dir` that replaces every earlier

@@ -19,10 +19,15 @@ pub(crate) enum Mark {
     Line(RGBColor),
     /// Dashed line, 2 px.
     Dashed(RGBColor),
+    /// Dashed line, 1 px, for reference levels.
+    ThinDashed(RGBColor),
     /// Hollow circles.
     Marker(RGBColor),
     /// Hollow circles joined by a 1 px line.
     LineMarker(RGBColor),
+    /// A translucent shaded area, drawn with [`draw_hband`]; its key is a
+    /// shaded box. Not a way to draw a series.
+    Band(RGBColor),
 }
 
 /// A legend entry.
@@ -30,6 +35,8 @@ pub(crate) type Key<'s> = (Mark, &'s str);
 
 const MARKER_RADIUS: i32 = 4;
 const DASH: (u32, u32) = (7, 5);
+/// Opacity of a [`Mark::Band`] fill.
+const BAND_ALPHA: f64 = 0.16;
 const KEY_FONT: f64 = 15.0;
 /// Width of a key's sample, gap before its text, and gap between keys.
 const SAMPLE: i32 = 24;
@@ -71,7 +78,8 @@ pub(crate) fn draw_series<'a, DB: DrawingBackend + 'a>(
     let (color, width) = match mark {
         Mark::Marker(c) => return draw_circles(chart, &points(xs, ys, x, y), c),
         Mark::Line(c) | Mark::Dashed(c) => (c, 2),
-        Mark::LineMarker(c) => (c, 1),
+        Mark::LineMarker(c) | Mark::ThinDashed(c) => (c, 1),
+        Mark::Band(_) => return Err("a band cannot be drawn as a series".into()),
     };
     let style = color.stroke_width(width);
     for run in segments(xs, ys, x, y) {
@@ -82,7 +90,7 @@ pub(crate) fn draw_series<'a, DB: DrawingBackend + 'a>(
             chart
                 .draw_series(std::iter::once(Circle::new(run[0], 3, color.filled())))
                 .map_err(de)?;
-        } else if matches!(mark, Mark::Dashed(_)) {
+        } else if matches!(mark, Mark::Dashed(_) | Mark::ThinDashed(_)) {
             chart
                 .draw_series(DashedLineSeries::new(run, DASH.0, DASH.1, style))
                 .map_err(de)?;
@@ -115,12 +123,32 @@ pub(crate) fn draw_vline<'a, DB: DrawingBackend + 'a>(
     y: &Axis,
     mark: Mark,
 ) -> DrawResult<()> {
-    let ends = [(p, y.lo), (p, y.hi)];
-    let (color, dashed) = match mark {
-        Mark::Dashed(c) => (c, true),
-        Mark::Line(c) | Mark::Marker(c) | Mark::LineMarker(c) => (c, false),
+    draw_rule(chart, [(p, y.lo), (p, y.hi)], mark)
+}
+
+/// Draws a horizontal line across the panel at plot coordinate `p`.
+pub(crate) fn draw_hline<'a, DB: DrawingBackend + 'a>(
+    chart: &mut Chart<'a, DB>,
+    x: &Axis,
+    p: f64,
+    mark: Mark,
+) -> DrawResult<()> {
+    draw_rule(chart, [(x.lo, p), (x.hi, p)], mark)
+}
+
+/// Draws a straight line between two points in plot coordinates.
+fn draw_rule<'a, DB: DrawingBackend + 'a>(
+    chart: &mut Chart<'a, DB>,
+    ends: [(f64, f64); 2],
+    mark: Mark,
+) -> DrawResult<()> {
+    let (color, width, dashed) = match mark {
+        Mark::Dashed(c) => (c, 2, true),
+        Mark::ThinDashed(c) => (c, 1, true),
+        Mark::Line(c) | Mark::Marker(c) | Mark::LineMarker(c) => (c, 2, false),
+        Mark::Band(_) => return Err("a band cannot be drawn as a line".into()),
     };
-    let style = color.stroke_width(2);
+    let style = color.stroke_width(width);
     if dashed {
         chart
             .draw_series(DashedLineSeries::new(ends, DASH.0, DASH.1, style))
@@ -130,6 +158,24 @@ pub(crate) fn draw_vline<'a, DB: DrawingBackend + 'a>(
             .draw_series(LineSeries::new(ends, style))
             .map_err(de)?;
     }
+    Ok(())
+}
+
+/// Shades the full width of the panel between the plot coordinates `lo`
+/// and `hi` (in either order) in the colour of `Mark::Band`.
+pub(crate) fn draw_hband<'a, DB: DrawingBackend + 'a>(
+    chart: &mut Chart<'a, DB>,
+    x: &Axis,
+    (lo, hi): (f64, f64),
+    color: RGBColor,
+) -> DrawResult<()> {
+    let corners = [(x.lo, lo), (x.hi, hi)];
+    chart
+        .draw_series(std::iter::once(Rectangle::new(
+            corners,
+            color.mix(BAND_ALPHA).filled(),
+        )))
+        .map_err(de)?;
     Ok(())
 }
 
@@ -161,6 +207,11 @@ fn draw_sample<DB: DrawingBackend>(
     match mark {
         Mark::Line(c) => area.draw(&PathElement::new(line, c.stroke_width(2))),
         Mark::Dashed(c) => area.draw(&DashedPathElement::new(line, 6, 4, c.stroke_width(2))),
+        Mark::ThinDashed(c) => area.draw(&DashedPathElement::new(line, 6, 4, c.stroke_width(1))),
+        Mark::Band(c) => area.draw(&Rectangle::new(
+            [(x, y - 7), (x + SAMPLE, y + 7)],
+            c.mix(BAND_ALPHA).filled(),
+        )),
         Mark::Marker(c) => area.draw(&Circle::new(dot, MARKER_RADIUS, c.stroke_width(2))),
         Mark::LineMarker(c) => {
             area.draw(&PathElement::new(line, c.stroke_width(1)))

@@ -8,6 +8,8 @@
 //! - [`render_drt`]: γ against τ on a log axis, peaks marked.
 //! - [`render_nyquist`]: −Z″ against Z′ with equal ohm-per-pixel scales.
 //! - [`render_bode`]: |Z|, phase and relative residuals against frequency.
+//! - [`render_kk`]: Kramers-Kronig test residuals against frequency, with
+//!   the band the verdict allows.
 //! - [`render_lambda`]: one panel of score against λ per selection rule.
 //! - [`render_transient`]: a step response and its fit, with residuals.
 //!
@@ -27,6 +29,7 @@ mod bode;
 mod common;
 mod draw;
 mod drt;
+mod kk;
 mod lambda;
 mod nyquist;
 #[cfg(test)]
@@ -35,6 +38,7 @@ mod transient;
 
 pub use bode::render_bode;
 pub use drt::render_drt;
+pub use kk::render_kk;
 pub use lambda::render_lambda;
 pub use nyquist::{equal_scale_ranges, render_nyquist};
 pub use transient::render_transient;
@@ -99,6 +103,25 @@ pub struct BodeFigure<'a> {
     pub residual_re_rel: &'a [f64],
     /// Relative residual of the imaginary part (0.01 = 1 %), one per frequency; may be empty.
     pub residual_im_rel: &'a [f64],
+    /// Figure title; empty for none.
+    pub title: &'a str,
+}
+
+/// The residuals of a Kramers-Kronig test against frequency, with the band the verdict allows.
+#[derive(Clone, Copy, Debug)]
+pub struct KkFigure<'a> {
+    /// Measurement frequencies in Hz (log axis).
+    pub frequency_hz: &'a [f64],
+    /// (Z' - Z'_fit)/|Z| per frequency (0.01 = 1 %).
+    pub residual_re_rel: &'a [f64],
+    /// (Z'' - Z''_fit)/|Z| per frequency.
+    pub residual_im_rel: &'a [f64],
+    /// Half-width of the band a single point may reach (relative, > 0),
+    /// drawn as a shaded band around zero; 0 or non-finite: no band.
+    pub point_limit_rel: f64,
+    /// The noise level used by the verdict (relative); drawn as two thin
+    /// dashed lines at ± this value when finite and > 0.
+    pub noise_rel: f64,
     /// Figure title; empty for none.
     pub title: &'a str,
 }

@@ -6,10 +6,12 @@
 //! - `lambda.csv`: one row per grid value of lambda, one column per computed rule
 //! - `summary.json`: see [`Summary`]
 //!
-//! The outputs of a step transient are in [`transient`]. Both take the one
+//! The outputs of a step transient are in [`transient`], those of the
+//! Kramers-Kronig test in [`kk`]. Both take the one
 //! result type [`Distribution`]: `drt.csv`, `lambda.csv` and the shared
 //! parts of `summary.json` are written by the same code for both.
 
+pub mod kk;
 pub mod transient;
 
 use crate::grid::TauGrid;
@@ -281,6 +283,11 @@ pub struct Summary {
     pub solver: SolverSummary,
     /// Settings used.
     pub settings: Settings,
+    /// The Kramers-Kronig verdict on the spectrum inverted (see
+    /// [`crate::kk`]); null when the test could not judge it.
+    pub kk_valid: Option<bool>,
+    /// The residual rms of that test, null when it did not run.
+    pub kk_residual_rms_rel: Option<f64>,
 }
 
 impl Summary {
@@ -313,7 +320,16 @@ impl Summary {
                 inductance: params.inductance,
                 series_capacitance: params.series_capacitance,
             },
+            kk_valid: None,
+            kk_residual_rms_rel: None,
         }
+    }
+
+    /// The same summary with the verdict of the Kramers-Kronig test.
+    pub fn with_kk(mut self, kk: Option<&crate::kk::KkTest>) -> Self {
+        self.kk_valid = kk.and_then(|t| t.valid);
+        self.kk_residual_rms_rel = kk.map(|t| t.residual_rms_rel);
+        self
     }
 
     /// Pretty JSON text with a final newline.
