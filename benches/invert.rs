@@ -64,6 +64,10 @@ fn benches(c: &mut Criterion) {
     c.bench_function("invert/fixed_lambda", |b| {
         b.iter(|| invert(black_box(&s), black_box(&fixed)).expect("inverts"))
     });
+    let kk_opts = taumap::kk::KkOptions::default();
+    c.bench_function("kk/linear_test_81_points", |b| {
+        b.iter(|| taumap::kk::kk_test(black_box(&s), black_box(&kk_opts)).expect("tests"))
+    });
     let t = problem(&s, &fixed).expect("problem builds");
     c.bench_function("solve/nnls_one_lambda", |b| {
         b.iter(|| t.solve(black_box(1e-3), &[]))

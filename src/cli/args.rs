@@ -55,6 +55,15 @@ pub enum PenaltyArg {
     Adaptive,
 }
 
+/// A switch on the command line.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, ValueEnum)]
+pub enum OnOff {
+    /// On.
+    On,
+    /// Off.
+    Off,
+}
+
 /// Series capacitance mode on the command line.
 #[derive(Clone, Copy, Debug, ValueEnum)]
 pub enum CapacitanceArg {
@@ -94,6 +103,15 @@ pub struct SolveArgs {
     /// Derivative order of the penalty: 0, 1 or 2.
     #[arg(long, value_name = "K", default_value_t = 0)]
     pub penalty_order: usize,
+    /// Uncertainty bands on gamma and on every peak, peak confidence and
+    /// the count of processes the data support (posterior sampling; see
+    /// README). They need the adaptive penalty.
+    #[arg(long, value_enum, default_value = "on")]
+    pub bands: OnOff,
+    /// Seed of the posterior draws (the same seed gives the same bands
+    /// for any number of threads).
+    #[arg(long, value_name = "N", default_value_t = 1)]
+    pub seed: u64,
     /// Smallest time constant of the grid (s); default one decade below the
     /// fastest the data resolve (1/(2 pi f_max), or the first sample after a step).
     #[arg(long, value_name = "S", allow_negative_numbers = true)]

@@ -1,9 +1,11 @@
 //! `taumap invert`: spectrum in, DRT, fit, summary and plots out.
 
 use super::args::{
-    BasisArg, CapacitanceArg, InductanceArg, InvertArgs, PenaltyArg, SolveArgs, WeightingArg,
+    BasisArg, CapacitanceArg, InductanceArg, InvertArgs, OnOff, PenaltyArg, SolveArgs, WeightingArg,
 };
-use super::output::{FORMATS, add_distribution, fixed6, lambda_phrase, output_set, print_warnings};
+use super::output::{
+    FORMATS, add_distribution, fixed6, interval_phrase, lambda_phrase, output_set, print_warnings,
+};
 use anyhow::{Result, bail};
 use std::path::{Path, PathBuf};
 use taumap::io::Spectrum;
@@ -11,6 +13,7 @@ use taumap::io::spectrum::{SpectrumLayout, read_spectrum_with};
 use taumap::kernel::BasisKind;
 use taumap::kk::{KkOptions, KkTest, kk_test};
 use taumap::pipeline::adaptive::AdaptiveOptions;
+use taumap::pipeline::bands::BandOptions;
 use taumap::pipeline::{
     CapacitanceMode, DrtOptions, InductanceMode, InvertParams, LambdaChoice, LambdaRule,
     SpectrumInversion, Weighting, invert,
@@ -45,6 +48,20 @@ pub fn drt_options_from(solve: &SolveArgs, default_per_decade: f64) -> Result<Dr
         adaptive: match solve.penalty {
             PenaltyArg::Global => None,
             PenaltyArg::Adaptive => Some(AdaptiveOptions::default()),
+        },
+        bands: match (solve.bands, solve.penalty) {
+            (OnOff::Off, _) => None,
+            (OnOff::On, PenaltyArg::Global) => {
+                eprintln!(
+                    "note: no uncertainty bands with --penalty global (they are sampled from the \
+                     adaptive penalty's posterior; see README)"
+                );
+                None
+            }
+            (OnOff::On, PenaltyArg::Adaptive) => Some(BandOptions {
+                seed: solve.seed,
+                ..BandOptions::default()
+            }),
         },
         ..DrtOptions::default()
     };
@@ -289,11 +306,22 @@ pub fn report_run(summary: &Summary, out: &Path, written: &[PathBuf], json: bool
         for (i, p) in summary.peaks.iter().enumerate() {
             writeln!(
                 w,
-                "peak {}: tau = {:.4e} s ({:.4e} Hz), r = {} ohm",
+                "peak {}: tau = {:.4e} s ({:.4e} Hz), r = {} ohm{}",
                 i + 1,
                 p.tau_s,
                 p.frequency_hz,
-                fixed6(p.r_ohm)
+                fixed6(p.r_ohm),
+                interval_phrase(&p.interval, p.r_lo_ohm, p.r_hi_ohm, "ohm")
+            )?;
+        }
+        for p in &summary.weak_peaks {
+            writeln!(
+                w,
+                "weak peak: tau = {:.4e} s ({:.4e} Hz), r = {} ohm{}",
+                p.tau_s,
+                p.frequency_hz,
+                fixed6(p.r_ohm),
+                interval_phrase(&p.interval, p.r_lo_ohm, p.r_hi_ohm, "ohm")
             )?;
         }
         Ok(())

@@ -91,6 +91,25 @@ pub fn fixed6(v: f64) -> String {
     }
 }
 
+/// `" (90 % interval: tau 1.0e-3..1.1e-3 s, r 0.10..0.12 ohm; confidence
+/// 0.98)"` for a peak with bands, empty without.
+pub fn interval_phrase(
+    i: &report::PeakInterval,
+    lo: Option<f64>,
+    hi: Option<f64>,
+    unit: &str,
+) -> String {
+    match (i.confidence, i.tau_lo_s, i.tau_hi_s, lo, hi) {
+        (Some(c), Some(tl), Some(th), Some(lo), Some(hi)) => format!(
+            " (tau {tl:.3e}..{th:.3e} s, {}..{} {unit}; confidence {c:.2})",
+            fixed6(lo),
+            fixed6(hi)
+        ),
+        (Some(c), ..) => format!(" (confidence {c:.2})"),
+        _ => String::new(),
+    }
+}
+
 /// The console's `lambda = ... (rule), residual rms = ... %` phrase.
 pub fn lambda_phrase(fit: &report::FitSummary) -> String {
     format!(

@@ -2,7 +2,9 @@
 
 use super::args::TransientArgs;
 use super::invert::{drt_options_from, in_file, out_dir};
-use super::output::{FORMATS, add_distribution, fixed6, lambda_phrase, output_set, print_warnings};
+use super::output::{
+    FORMATS, add_distribution, fixed6, interval_phrase, lambda_phrase, output_set, print_warnings,
+};
 use anyhow::Result;
 use std::path::{Path, PathBuf};
 use taumap::io::transient::read_transient_with;
@@ -115,6 +117,7 @@ pub fn report_run(
                 series_capacitance_f,
                 v_inf_v,
                 peaks,
+                weak_peaks,
             } => {
                 let r_inf = r_inf_ohm.map_or("unknown (no baseline)".to_string(), |r| {
                     format!("{} ohm", fixed6(r))
@@ -133,10 +136,20 @@ pub fn report_run(
                 for (i, p) in peaks.iter().enumerate() {
                     writeln!(
                         w,
-                        "peak {}: tau = {:.4e} s, r = {} ohm",
+                        "peak {}: tau = {:.4e} s, r = {} ohm{}",
                         i + 1,
                         p.tau_s,
-                        fixed6(p.r_ohm)
+                        fixed6(p.r_ohm),
+                        interval_phrase(&p.interval, p.r_lo_ohm, p.r_hi_ohm, "ohm")
+                    )?;
+                }
+                for p in weak_peaks {
+                    writeln!(
+                        w,
+                        "weak peak: tau = {:.4e} s, r = {} ohm{}",
+                        p.tau_s,
+                        fixed6(p.r_ohm),
+                        interval_phrase(&p.interval, p.r_lo_ohm, p.r_hi_ohm, "ohm")
                     )?;
                 }
             }
@@ -144,6 +157,7 @@ pub fn report_run(
                 g_inf_siemens,
                 g_pol_siemens,
                 peaks,
+                weak_peaks,
             } => {
                 writeln!(
                     w,
@@ -152,10 +166,20 @@ pub fn report_run(
                 for (i, p) in peaks.iter().enumerate() {
                     writeln!(
                         w,
-                        "peak {}: tau = {:.4e} s, g = {:.6e} S",
+                        "peak {}: tau = {:.4e} s, g = {:.6e} S{}",
                         i + 1,
                         p.tau_s,
-                        p.g_siemens
+                        p.g_siemens,
+                        interval_phrase(&p.interval, p.g_lo_siemens, p.g_hi_siemens, "S")
+                    )?;
+                }
+                for p in weak_peaks {
+                    writeln!(
+                        w,
+                        "weak peak: tau = {:.4e} s, g = {:.6e} S{}",
+                        p.tau_s,
+                        p.g_siemens,
+                        interval_phrase(&p.interval, p.g_lo_siemens, p.g_hi_siemens, "S")
                     )?;
                 }
             }

@@ -35,6 +35,7 @@
 //! `lambda` is dimensionless and comparable between measurements.
 
 pub mod adaptive;
+pub mod bands;
 pub mod binning;
 pub mod options;
 pub mod plan;

@@ -5,6 +5,7 @@ use crate::kernel::BasisKind;
 use crate::lambda::{LambdaChoice, LambdaGrid, LambdaRule};
 use crate::peaks::PeakOptions;
 use crate::pipeline::adaptive::AdaptiveOptions;
+use crate::pipeline::bands::BandOptions;
 use crate::solve::NnlsParams;
 use crate::{Error, Result};
 
@@ -53,6 +54,10 @@ pub struct DrtOptions {
     /// (the default since the resolution ladder of
     /// docs/resolution-ladder.md); `None` keeps the global penalty alone.
     pub adaptive: Option<AdaptiveOptions>,
+    /// Uncertainty bands sampled from the posterior (`None`: none; the
+    /// library default, since they cost about a hundred times the
+    /// inversion; the command line asks for them unless `--bands off`).
+    pub bands: Option<BandOptions>,
 }
 
 impl Default for DrtOptions {
@@ -82,6 +87,7 @@ impl Default for DrtOptions {
             extension_prior: 1e-2,
             nnls: NnlsParams::default(),
             adaptive: Some(AdaptiveOptions::default()),
+            bands: None,
         }
     }
 }

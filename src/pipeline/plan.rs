@@ -114,6 +114,21 @@ pub(crate) struct Solved {
     /// The noise level the discrepancy rule estimates, in the same units,
     /// when a rule chose lambda (see [`super::select`]).
     pub noise_rms: Option<f64>,
+    /// What the uncertainty bands sample from.
+    pub posterior: PosteriorSource,
+}
+
+/// The final regularised problem and its solution, in the problem's
+/// columns, for [`super::bands`].
+#[derive(Clone)]
+pub(crate) struct PosteriorSource {
+    pub problem: Tikhonov,
+    pub lambda: f64,
+    /// The solution in the problem's columns.
+    pub x: Vec<f64>,
+    pub residual_sq: f64,
+    /// Effective number of parameters of the solution.
+    pub dof: f64,
 }
 
 /// What to tell the user when the distribution sits beyond the band the
@@ -395,6 +410,7 @@ impl Plan {
             selection,
             info,
             noise_rms,
+            problem: last,
         } = refine(problem, global, &self.opts, self.n_gamma);
         let mut x = vec![0.0; self.ncols()];
         for (k, &j) in keep.iter().enumerate() {
@@ -406,12 +422,19 @@ impl Plan {
             x,
             prediction,
             selection,
-            info,
             residual_rms,
             noise_rms,
             warm_start: WarmStart {
                 free: solution.free.iter().map(|&k| keep[k]).collect(),
             },
+            posterior: PosteriorSource {
+                problem: last,
+                lambda: solution.lambda,
+                x: solution.x,
+                residual_sq: solution.residual_sq,
+                dof: info.dof,
+            },
+            info,
         }
     }
 
@@ -420,16 +443,21 @@ impl Plan {
     /// `min_area` (0: no absolute limit). `warnings` (the front end's)
     /// lead the result's warnings; the plausibility checks of
     /// [`plausibility`] follow, worded with `hints`.
+    ///
+    /// `coeff_scale` turns the problem's basis coefficients into `coeffs`
+    /// (physical units); with [`DrtOptions::bands`] the uncertainty bands
+    /// are sampled here ([`super::bands`]), for every front end alike.
     #[allow(clippy::too_many_arguments)]
     pub(crate) fn distribution(
         &self,
         unit: DistributionUnit,
         coeffs: Vec<f64>,
+        coeff_scale: f64,
         series: SeriesTerms,
         min_area: f64,
         residual_rms_rel: f64,
         solved: Solved,
-        warnings: Vec<String>,
+        mut warnings: Vec<String>,
         hints: &EdgeHints,
     ) -> Distribution {
         let total = coeffs.iter().sum::<f64>() * self.basis.integral();
@@ -439,7 +467,33 @@ impl Plan {
             peak_opts.min_area = min_area;
         }
         let peaks = find_peaks(&self.sampler.ln_tau, &gamma, &peak_opts);
-        let mut warnings = warnings;
+        if self.opts.bands.is_some() && self.opts.adaptive.is_none() {
+            warnings.push(
+                "no uncertainty bands: they are sampled from the posterior of the adaptive \
+                 penalty, and the global penalty was asked for"
+                    .into(),
+            );
+        }
+        let bands = self
+            .opts
+            .bands
+            .as_ref()
+            .filter(|_| self.opts.adaptive.is_some())
+            .and_then(|b| {
+                super::bands::sample(
+                    &solved.posterior,
+                    self.n_gamma,
+                    coeff_scale,
+                    &|c| self.sampler.evaluate(c),
+                    &self.sampler.ln_tau,
+                    &peaks,
+                    &peak_opts,
+                    residual_rms_rel,
+                    b,
+                )
+                .map_err(|e| warnings.push(format!("no uncertainty bands: {e}")))
+                .ok()
+            });
         warnings.extend(solved.selection.warning());
         warnings.extend(solved.info.warning());
         let edges = edge_shares(&self.sampler.ln_tau, &gamma, self.band_ln_tau);
@@ -468,6 +522,7 @@ impl Plan {
             info: solved.info,
             warnings,
             warm_start: solved.warm_start,
+            bands,
         }
     }
 

@@ -225,6 +225,8 @@ pub struct Distribution {
     /// The free set of the final solve, to warm-start the next response of
     /// a series on the same plan.
     pub warm_start: WarmStart,
+    /// Uncertainty bands, when asked for ([`super::DrtOptions::bands`]).
+    pub bands: Option<super::bands::Bands>,
 }
 
 /// The terms of the model in series with the distribution.

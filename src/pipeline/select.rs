@@ -32,6 +32,9 @@ pub(crate) struct Selected {
     /// (scaled units, see [`noise_rms`]), when a rule traced the path and
     /// its GCV curve has a minimum; `None` for a fixed lambda.
     pub noise_rms: Option<f64>,
+    /// The problem whose solution `solution` is, at `solution.lambda`:
+    /// the global one, or the last weighted one of the adaptive penalty.
+    pub problem: Tikhonov,
 }
 
 /// The noise level per equation (rms, in the scaled units of the problem)
@@ -160,6 +163,7 @@ pub(crate) fn select(
         selection,
         info,
         noise_rms: noise,
+        problem: problem.clone(),
     }
 }
 
@@ -204,6 +208,7 @@ pub(crate) fn refine(
     Selected {
         solution,
         info,
+        problem: refined.problem,
         ..global
     }
 }

@@ -539,6 +539,7 @@ impl SpectrumPlan {
         let drt = self.plan.distribution(
             DistributionUnit::Ohm,
             coeffs_ohm,
+            d.z_scale,
             series,
             min_area,
             residual_rms_rel,

@@ -708,6 +708,7 @@ impl TransientPlan {
         let drt = self.plan.distribution(
             step.unit(),
             coeffs,
+            s,
             SeriesTerms {
                 instantaneous,
                 inductance_h: None,

@@ -179,6 +179,51 @@ pub(crate) fn draw_hband<'a, DB: DrawingBackend + 'a>(
     Ok(())
 }
 
+/// Shades the area between the curves `(xs[i], lo[i])` and `(xs[i], hi[i])`
+/// in the colour of `Mark::Band`, with no outline. An index whose x, lo or
+/// hi cannot be shown breaks the area there; a run of a single index
+/// encloses nothing and is left out.
+pub(crate) fn draw_area_between<'a, DB: DrawingBackend + 'a>(
+    chart: &mut Chart<'a, DB>,
+    xs: &[f64],
+    (lo, hi): (&[f64], &[f64]),
+    (x, y): (&Axis, &Axis),
+    color: RGBColor,
+) -> DrawResult<()> {
+    let style = color.mix(BAND_ALPHA).filled();
+    for run in area_runs(xs, lo, hi, x, y) {
+        // Along the lower edge, then back along the upper one.
+        let outline: Vec<(f64, f64)> = run
+            .iter()
+            .map(|&(p, l, _)| (p, l))
+            .chain(run.iter().rev().map(|&(p, _, h)| (p, h)))
+            .collect();
+        chart
+            .draw_series(std::iter::once(Polygon::new(outline, style)))
+            .map_err(de)?;
+    }
+    Ok(())
+}
+
+/// Runs of consecutive indices at which x, lo and hi are all plottable, as
+/// `(x, lo, hi)` in plot coordinates; runs of fewer than two are dropped.
+fn area_runs(xs: &[f64], lo: &[f64], hi: &[f64], x: &Axis, y: &Axis) -> Vec<Vec<(f64, f64, f64)>> {
+    let mut runs = vec![Vec::new()];
+    for ((&a, &l), &h) in xs.iter().zip(lo).zip(hi) {
+        let p = (x.scale.to_plot(a), y.scale.to_plot(l), y.scale.to_plot(h));
+        match p {
+            (Some(p), Some(l), Some(h)) => runs
+                .last_mut()
+                .expect("runs starts non-empty")
+                .push((p, l, h)),
+            _ if runs.last().is_some_and(|r| !r.is_empty()) => runs.push(Vec::new()),
+            _ => {}
+        }
+    }
+    runs.retain(|r| r.len() >= 2);
+    runs
+}
+
 /// Draws a thin horizontal reference line at zero if zero is in view.
 pub(crate) fn draw_zero_line<'a, DB: DrawingBackend + 'a>(
     chart: &mut Chart<'a, DB>,
@@ -365,4 +410,33 @@ pub(crate) fn draw_note<DB: DrawingBackend>(
     let style = font(size).pos(Pos::new(HPos::Center, v));
     area.draw(&Text::new(text, (w as i32 / 2, y), style))
         .map_err(de)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::plot::axis::Scale;
+
+    #[test]
+    fn area_breaks_at_unplottable_entries() {
+        let x = Axis {
+            scale: Scale::Log,
+            lo: -1.0,
+            hi: 4.0,
+        };
+        let y = Axis {
+            scale: Scale::Linear,
+            lo: -10.0,
+            hi: 10.0,
+        };
+        let xs = [1.0, 10.0, 100.0, -1.0, 1e3, 1e4, f64::NAN, 1.0, 10.0];
+        let lo = [0.0, 1.0, 2.0, 3.0, 4.0, f64::NAN, 6.0, 7.0, 8.0];
+        let hi = [1.0, 2.0, 3.0, 4.0, 5.0, 6.0, 7.0, f64::INFINITY, 9.0];
+        let runs = area_runs(&xs, &lo, &hi, &x, &y);
+        // Indices 0..3 form one run; 4 and 8 stand alone and are dropped.
+        assert_eq!(
+            runs,
+            vec![vec![(0.0, 0.0, 1.0), (1.0, 1.0, 2.0), (2.0, 2.0, 3.0)]]
+        );
+    }
 }

@@ -5,7 +5,8 @@
 //! function takes a borrowed figure description and an [`ImageFormat`] and
 //! returns the encoded image; writing it to disk is left to the caller.
 //!
-//! - [`render_drt`]: γ against τ on a log axis, peaks marked.
+//! - [`render_drt`]: γ against τ on a log axis, peaks marked, with an
+//!   optional uncertainty band.
 //! - [`render_nyquist`]: −Z″ against Z′ with equal ohm-per-pixel scales.
 //! - [`render_bode`]: |Z|, phase and relative residuals against frequency.
 //! - [`render_kk`]: Kramers-Kronig test residuals against frequency, with
@@ -63,6 +64,12 @@ pub struct DrtFigure<'a> {
     pub y_label: &'a str,
     /// Relaxation times of detected peaks in s, marked on the curve; may be empty.
     pub peaks_tau_s: &'a [f64],
+    /// Lower edge of an uncertainty band of γ, one per τ; empty for no band.
+    pub band_lo: &'a [f64],
+    /// Upper edge of the band, one per τ; empty exactly when `band_lo` is.
+    pub band_hi: &'a [f64],
+    /// Legend text of the band, e.g. `"90 % band"`; unused without a band.
+    pub band_label: &'a str,
     /// Figure title; empty for none.
     pub title: &'a str,
 }
@@ -185,12 +192,23 @@ pub fn render_distribution(
         crate::pipeline::DistributionUnit::Ohm => "gamma (ohm)",
         crate::pipeline::DistributionUnit::Siemens => "g (S)",
     };
+    let (band_lo, band_hi, band_label) = match &drt.bands {
+        Some(b) => (
+            b.gamma_lo.as_slice(),
+            b.gamma_hi.as_slice(),
+            format!("{:.0} % band", 100.0 * b.level),
+        ),
+        None => (&[][..], &[][..], String::new()),
+    };
     render_drt(
         &DrtFigure {
             tau_s: &drt.tau_s,
             gamma: &drt.gamma,
             y_label,
             peaks_tau_s: &peaks,
+            band_lo,
+            band_hi,
+            band_label: &band_label,
             title,
         },
         format,

@@ -18,6 +18,7 @@ use crate::grid::TauGrid;
 use crate::io::Spectrum;
 use crate::lambda::{LambdaCurves, LambdaRule};
 use crate::peaks::Peak;
+use crate::pipeline::bands::PeakBand;
 use crate::pipeline::{
     CapacitanceMode, Distribution, DrtOptions, GridEdge, InductanceMode, InvertParams,
     LambdaSelection, SolveInfo, SpectrumFit, SpectrumInversion,
@@ -37,12 +38,156 @@ pub fn num(v: f64) -> String {
 
 /// `drt.csv`: `tau_s,gamma_ohm` (or `gamma_siemens` for the admittance
 /// distribution of a voltage step).
+///
+/// With uncertainty bands, two more columns: `gamma_lo_ohm,gamma_hi_ohm`
+/// (or `_siemens`), the band's lower and upper ends.
 pub fn drt_csv(drt: &Distribution) -> String {
-    let mut s = format!("tau_s,gamma_{}\n", drt.unit.name());
-    for (t, g) in drt.tau_s.iter().zip(&drt.gamma) {
-        let _ = writeln!(s, "{},{}", num(*t), num(*g));
+    let unit = drt.unit.name();
+    match &drt.bands {
+        None => {
+            let mut s = format!("tau_s,gamma_{unit}\n");
+            for (t, g) in drt.tau_s.iter().zip(&drt.gamma) {
+                let _ = writeln!(s, "{},{}", num(*t), num(*g));
+            }
+            s
+        }
+        Some(b) => {
+            let mut s = format!("tau_s,gamma_{unit},gamma_lo_{unit},gamma_hi_{unit}\n");
+            for i in 0..drt.tau_s.len() {
+                let _ = writeln!(
+                    s,
+                    "{},{},{},{}",
+                    num(drt.tau_s[i]),
+                    num(drt.gamma[i]),
+                    num(b.gamma_lo[i]),
+                    num(b.gamma_hi[i])
+                );
+            }
+            s
+        }
     }
-    s
+}
+
+/// The peaks of `drt` as `make` turns them into summary entries, split into
+/// those the data support (confidence at least the bands' support level)
+/// and the weak ones; without bands every peak is supported.
+pub fn split_peaks<T>(
+    drt: &Distribution,
+    make: impl Fn(&Peak, Option<&PeakBand>) -> T,
+) -> (Vec<T>, Vec<T>) {
+    let (mut strong, mut weak) = (Vec::new(), Vec::new());
+    for (i, p) in drt.peaks.iter().enumerate() {
+        let band = drt.bands.as_ref().and_then(|b| b.peaks.get(i));
+        let supported = match (band, &drt.bands) {
+            (Some(pb), Some(b)) => pb.confidence >= b.support,
+            _ => true,
+        };
+        if supported {
+            strong.push(make(p, band));
+        } else {
+            weak.push(make(p, band));
+        }
+    }
+    (strong, weak)
+}
+
+/// The intervals of a peak, in `summary.json` (null without bands).
+#[derive(Clone, Copy, Debug, Default, Serialize)]
+pub struct PeakInterval {
+    /// Lower end of the interval of tau (s).
+    pub tau_lo_s: Option<f64>,
+    /// Upper end of the interval of tau (s).
+    pub tau_hi_s: Option<f64>,
+    /// Fraction of posterior draws with a peak in this peak's region.
+    pub confidence: Option<f64>,
+}
+
+impl PeakInterval {
+    /// The interval of a peak, with the band's limits of its area.
+    pub fn new(b: Option<&PeakBand>) -> (Self, Option<f64>, Option<f64>) {
+        match b {
+            None => (Self::default(), None, None),
+            Some(b) => (
+                Self {
+                    tau_lo_s: b.tau_lo_s.is_finite().then_some(b.tau_lo_s),
+                    tau_hi_s: b.tau_hi_s.is_finite().then_some(b.tau_hi_s),
+                    confidence: Some(b.confidence),
+                },
+                Some(b.r_lo),
+                Some(b.r_hi),
+            ),
+        }
+    }
+}
+
+/// A count of processes and how often the posterior draws show it.
+#[derive(Clone, Copy, Debug, Serialize)]
+pub struct CountProbability {
+    /// Number of peaks in a draw.
+    pub processes: usize,
+    /// Fraction of draws with that many.
+    pub probability: f64,
+}
+
+/// How many processes the data support, in every `summary.json` (nulls and
+/// empty lists without bands).
+#[derive(Clone, Debug, Serialize)]
+pub struct ProcessSummary {
+    /// Peaks of `peaks` (those the data support); null without bands.
+    pub processes_supported: Option<usize>,
+    /// The distribution of the number of peaks over posterior draws.
+    pub process_count_probability: Vec<CountProbability>,
+    /// Smallest separation of two equal narrow processes the noise allows
+    /// (decades); null without bands.
+    pub resolution_decades: Option<f64>,
+    /// How the bands were made; null without bands.
+    pub bands: Option<BandSummary>,
+}
+
+/// The settings of the bands, for the record.
+#[derive(Clone, Copy, Debug, Serialize)]
+pub struct BandSummary {
+    /// Probability inside the band (0.9: the columns `gamma_lo_*`,
+    /// `gamma_hi_*` of drt.csv and the peaks' intervals are 90 % intervals).
+    pub level: f64,
+    /// Confidence a peak needs to be listed in `peaks` (else `weak_peaks`).
+    pub support: f64,
+    /// Posterior draws.
+    pub draws: usize,
+    /// Seed of the draws.
+    pub seed: u64,
+}
+
+impl ProcessSummary {
+    /// The process summary of `drt` (`seed`: the draws' seed).
+    pub fn new(drt: &Distribution, seed: Option<u64>) -> Self {
+        match &drt.bands {
+            None => Self {
+                processes_supported: None,
+                process_count_probability: Vec::new(),
+                resolution_decades: None,
+                bands: None,
+            },
+            Some(b) => Self {
+                processes_supported: Some(b.supported),
+                process_count_probability: b
+                    .count_probability
+                    .iter()
+                    .map(|&(processes, probability)| CountProbability {
+                        processes,
+                        probability,
+                    })
+                    .collect(),
+                resolution_decades: Some(b.resolution_decades),
+                bands: Some(BandSummary {
+                    level: b.level,
+                    support: b.support,
+                    draws: b.draws,
+                    seed: seed.unwrap_or(0),
+                }),
+            },
+        }
+    }
 }
 
 /// `fit.csv` of a spectrum.
@@ -113,16 +258,34 @@ pub struct PeakSummary {
     pub r_ohm: f64,
     /// gamma at the maximum (ohm).
     pub gamma_ohm: f64,
+    /// Interval of tau and confidence (null without bands).
+    #[serde(flatten)]
+    pub interval: PeakInterval,
+    /// Lower end of the interval of `r_ohm` (null without bands).
+    pub r_lo_ohm: Option<f64>,
+    /// Upper end of the interval of `r_ohm`.
+    pub r_hi_ohm: Option<f64>,
 }
 
-impl From<&Peak> for PeakSummary {
-    fn from(p: &Peak) -> Self {
+impl PeakSummary {
+    /// A peak and its band, if any.
+    pub fn new(p: &Peak, band: Option<&PeakBand>) -> Self {
+        let (interval, r_lo_ohm, r_hi_ohm) = PeakInterval::new(band);
         Self {
             tau_s: p.tau_s,
             frequency_hz: p.frequency_hz,
             r_ohm: p.area,
             gamma_ohm: p.height,
+            interval,
+            r_lo_ohm,
+            r_hi_ohm,
         }
+    }
+}
+
+impl From<&Peak> for PeakSummary {
+    fn from(p: &Peak) -> Self {
+        Self::new(p, None)
     }
 }
 
@@ -276,8 +439,14 @@ pub struct Summary {
     /// Lambda and residual.
     #[serde(flatten)]
     pub fit: FitSummary,
-    /// Peaks in ascending tau.
+    /// Peaks in ascending tau: those the data support (all of them
+    /// without bands).
     pub peaks: Vec<PeakSummary>,
+    /// Peaks whose confidence is below the bands' support level.
+    pub weak_peaks: Vec<PeakSummary>,
+    /// How many processes the data support.
+    #[serde(flatten)]
+    pub processes: ProcessSummary,
     /// Solver status, diagnostics and warnings.
     #[serde(flatten)]
     pub solver: SolverSummary,
@@ -310,7 +479,9 @@ impl Summary {
                 lambda: LambdaSummary::new(&drt.lambda),
                 residual_rms_rel: drt.residual_rms_rel,
             },
-            peaks: drt.peaks.iter().map(PeakSummary::from).collect(),
+            peaks: split_peaks(drt, PeakSummary::new).0,
+            weak_peaks: split_peaks(drt, PeakSummary::new).1,
+            processes: ProcessSummary::new(drt, params.drt.bands.map(|b| b.seed)),
             solver: SolverSummary::new(drt),
             settings: Settings {
                 drt: DrtSettings::new(&params.drt, &drt.grid),

@@ -12,8 +12,13 @@
 //! - `lambda.csv`: as for spectra
 //! - `summary.json`: see [`TransientSummary`]
 
-use super::{DrtSettings, FitSummary, LambdaSummary, SolverSummary, num};
+use super::{
+    DrtSettings, FitSummary, LambdaSummary, PeakInterval, ProcessSummary, SolverSummary, num,
+    split_peaks,
+};
 use crate::io::transient::Quantity;
+use crate::peaks::Peak;
+use crate::pipeline::bands::PeakBand;
 use crate::pipeline::binning::{BinOptions, BinnedTransient};
 use crate::pipeline::{
     BaselineSource, DistributionUnit, StepKind, TransientFit, TransientInversion, TransientParams,
@@ -56,6 +61,13 @@ pub struct OhmPeak {
     pub r_ohm: f64,
     /// gamma at the maximum (ohm).
     pub gamma_ohm: f64,
+    /// Interval of tau and confidence (null without bands).
+    #[serde(flatten)]
+    pub interval: PeakInterval,
+    /// Lower end of the interval of `r_ohm` (null without bands).
+    pub r_lo_ohm: Option<f64>,
+    /// Upper end of the interval of `r_ohm`.
+    pub r_hi_ohm: Option<f64>,
 }
 
 /// One peak of an admittance distribution from a voltage step.
@@ -67,6 +79,37 @@ pub struct SiemensPeak {
     pub g_siemens: f64,
     /// g at the maximum (siemens).
     pub gamma_siemens: f64,
+    /// Interval of tau and confidence (null without bands).
+    #[serde(flatten)]
+    pub interval: PeakInterval,
+    /// Lower end of the interval of `g_siemens` (null without bands).
+    pub g_lo_siemens: Option<f64>,
+    /// Upper end of the interval of `g_siemens`.
+    pub g_hi_siemens: Option<f64>,
+}
+
+fn ohm_peak(p: &Peak, band: Option<&PeakBand>) -> OhmPeak {
+    let (interval, r_lo_ohm, r_hi_ohm) = PeakInterval::new(band);
+    OhmPeak {
+        tau_s: p.tau_s,
+        r_ohm: p.area,
+        gamma_ohm: p.height,
+        interval,
+        r_lo_ohm,
+        r_hi_ohm,
+    }
+}
+
+fn siemens_peak(p: &Peak, band: Option<&PeakBand>) -> SiemensPeak {
+    let (interval, g_lo_siemens, g_hi_siemens) = PeakInterval::new(band);
+    SiemensPeak {
+        tau_s: p.tau_s,
+        g_siemens: p.area,
+        gamma_siemens: p.height,
+        interval,
+        g_lo_siemens,
+        g_hi_siemens,
+    }
 }
 
 /// The quantities of the fit, named by their unit.
@@ -83,8 +126,10 @@ pub enum Quantities {
         series_capacitance_f: Option<f64>,
         /// Final voltage of a relaxation (V), or null.
         v_inf_v: Option<f64>,
-        /// Peaks in ascending tau.
+        /// Peaks in ascending tau: those the data support.
         peaks: Vec<OhmPeak>,
+        /// Peaks below the bands' support level.
+        weak_peaks: Vec<OhmPeak>,
     },
     /// Voltage step.
     Siemens {
@@ -92,8 +137,10 @@ pub enum Quantities {
         g_inf_siemens: f64,
         /// Integral of g (S).
         g_pol_siemens: f64,
-        /// Peaks in ascending tau.
+        /// Peaks in ascending tau: those the data support.
         peaks: Vec<SiemensPeak>,
+        /// Peaks below the bands' support level.
+        weak_peaks: Vec<SiemensPeak>,
     },
 }
 
@@ -141,6 +188,9 @@ pub struct TransientSummary {
     /// Fitted quantities and peaks.
     #[serde(flatten)]
     pub quantities: Quantities,
+    /// How many processes the data support.
+    #[serde(flatten)]
+    pub processes: ProcessSummary,
     /// Lambda and residual (relative to the step response).
     #[serde(flatten)]
     pub fit: FitSummary,
@@ -168,28 +218,14 @@ impl TransientSummary {
                 r_pol_ohm: drt.total,
                 series_capacitance_f: drt.series.series_capacitance_f.filter(|c| c.is_finite()),
                 v_inf_v: inv.fit.final_value,
-                peaks: drt
-                    .peaks
-                    .iter()
-                    .map(|p| OhmPeak {
-                        tau_s: p.tau_s,
-                        r_ohm: p.area,
-                        gamma_ohm: p.height,
-                    })
-                    .collect(),
+                peaks: split_peaks(drt, ohm_peak).0,
+                weak_peaks: split_peaks(drt, ohm_peak).1,
             },
             DistributionUnit::Siemens => Quantities::Siemens {
                 g_inf_siemens: drt.series.instantaneous.unwrap_or(0.0),
                 g_pol_siemens: drt.total,
-                peaks: drt
-                    .peaks
-                    .iter()
-                    .map(|p| SiemensPeak {
-                        tau_s: p.tau_s,
-                        g_siemens: p.area,
-                        gamma_siemens: p.height,
-                    })
-                    .collect(),
+                peaks: split_peaks(drt, siemens_peak).0,
+                weak_peaks: split_peaks(drt, siemens_peak).1,
             },
         };
         Self {
@@ -204,6 +240,7 @@ impl TransientSummary {
             baseline: inv.fit.baseline,
             baseline_source: inv.fit.baseline_source,
             quantities,
+            processes: ProcessSummary::new(drt, params.drt.bands.map(|b| b.seed)),
             fit: FitSummary {
                 lambda: LambdaSummary::new(&drt.lambda),
                 residual_rms_rel: drt.residual_rms_rel,

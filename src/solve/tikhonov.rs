@@ -223,7 +223,13 @@ impl Tikhonov {
         self.prior.as_ref().map(|(p, f)| Matrix(p.as_ref() * *f))
     }
 
-    /// The matrix `A'A + lambda M + P` of the normal equations.
+    /// The matrix `A'A + lambda M + P` of the normal equations. The
+    /// objective is `x'(A'A + lambda M + P)x - 2 x'A'b + b'b`, so a Gaussian
+    /// likelihood of noise variance `s^2` with the penalty as a Gaussian
+    /// prior has the posterior precision `(A'A + lambda M + P) / s^2` and the
+    /// unconstrained mean `(A'A + lambda M + P)^-1 A'b` (the Bayesian reading
+    /// of Tikhonov regularisation; G. Wahba, J. R. Statist. Soc. B 40,
+    /// 364-372, 1978).
     pub fn normal_equations(&self, lambda: f64) -> Matrix {
         Matrix(self.normal_matrix(lambda))
     }

@@ -41,7 +41,7 @@ fn demo_data_inverts_with_every_output() {
     let png = std::fs::read(out.join("drt.png")).unwrap();
     assert_eq!(&png[..8], b"\x89PNG\r\n\x1a\n");
     let drt = std::fs::read_to_string(out.join("drt.csv")).unwrap();
-    assert!(drt.starts_with("tau_s,gamma_ohm\n"));
+    assert!(drt.starts_with("tau_s,gamma_ohm,gamma_lo_ohm,gamma_hi_ohm\n"));
     let fit = std::fs::read_to_string(out.join("fit.csv")).unwrap();
     assert!(fit.starts_with(
         "frequency_hz,z_re_ohm,z_im_ohm,fit_re_ohm,fit_im_ohm,residual_re_rel,residual_im_rel\n"

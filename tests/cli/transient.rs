@@ -131,7 +131,7 @@ fn demo_pulse_inverts_to_the_peaks_of_the_demo_spectrum() {
         assert!(out_t.join(name).exists(), "{name} missing");
     }
     let drt = std::fs::read_to_string(out_t.join("drt.csv")).unwrap();
-    assert!(drt.starts_with("tau_s,gamma_ohm\n"));
+    assert!(drt.starts_with("tau_s,gamma_ohm,gamma_lo_ohm,gamma_hi_ohm\n"));
     let fit = std::fs::read_to_string(out_t.join("fit.csv")).unwrap();
     assert!(fit.starts_with("time_s,measured_v,fitted_v,residual_v,samples\n"));
     let bins = fit.lines().count() - 1;
@@ -157,7 +157,7 @@ fn voltage_step_reports_an_admittance_distribution() {
     assert!(j["g_inf_siemens"].as_f64().unwrap() < 2e-4);
     let out = dir.path().join("rc-taumap");
     let drt = std::fs::read_to_string(out.join("drt.csv")).unwrap();
-    assert!(drt.starts_with("tau_s,gamma_siemens\n"));
+    assert!(drt.starts_with("tau_s,gamma_siemens,gamma_lo_siemens,gamma_hi_siemens\n"));
     let fit = std::fs::read_to_string(out.join("fit.csv")).unwrap();
     assert!(fit.starts_with("time_s,measured_a,fitted_a,residual_a,samples\n"));
 }
