@@ -43,6 +43,13 @@ fn benches(c: &mut Criterion) {
     c.bench_function("invert/auto_global", |b| {
         b.iter(|| invert(black_box(&s), black_box(&global)).expect("inverts"))
     });
+    let bands = with_drt(DrtOptions {
+        bands: Some(taumap::pipeline::bands::BandOptions::default()),
+        ..DrtOptions::default()
+    });
+    c.bench_function("invert/auto_with_bands", |b| {
+        b.iter(|| invert(black_box(&s), black_box(&bands)).expect("inverts"))
+    });
     let all = with_drt(DrtOptions {
         all_curves: true,
         ..DrtOptions::default()

@@ -18,6 +18,7 @@ use std::fmt::Write as _;
 use taumap::io::transient::read_transient;
 use taumap::io::write::write_atomic;
 use taumap::io::{Spectrum, read_spectrum};
+use taumap::pipeline::bands::BandOptions;
 use taumap::pipeline::binning::BinOptions;
 use taumap::pipeline::{DrtOptions, InvertParams, StepKind, TransientParams};
 use taumap::report::num;
@@ -131,6 +132,8 @@ pub fn run(a: &DemoArgs) -> Result<()> {
     let params = InvertParams {
         drt: DrtOptions {
             all_curves: true,
+            // As the command line does by default.
+            bands: Some(BandOptions::default()),
             ..DrtOptions::default()
         },
         ..InvertParams::default()
@@ -153,6 +156,7 @@ pub fn run(a: &DemoArgs) -> Result<()> {
     });
     let record = read_transient(&pulse_path, tparams.step.quantity(), &bins)?;
     tparams.drt.all_curves = true;
+    tparams.drt.bands = Some(BandOptions::default());
     let pulse_out = default_out_dir(&pulse_path);
     let (tsummary, twritten) =
         transient_into(&pulse_path, &record, &bins, &tparams, &pulse_out, true)?;
