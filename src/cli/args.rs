@@ -2,6 +2,7 @@
 
 use clap::{Args, Parser, Subcommand, ValueEnum};
 use std::path::PathBuf;
+use taumap::pipeline::{CapacitanceMode, InductanceMode};
 
 /// taumap: distribution of relaxation times from impedance spectra.
 #[derive(Parser, Debug)]
@@ -166,16 +167,9 @@ impl ColumnArgs {
     }
 }
 
-/// `taumap invert`.
-#[derive(Args, Debug)]
-pub struct InvertArgs {
-    /// Input spectrum: frequency_hz,z_re_ohm,z_im_ohm (see README for accepted
-    /// variants); `-` reads standard input (then --out is needed).
-    #[arg(value_name = "IN.csv")]
-    pub input: PathBuf,
-    /// Output directory (created if missing); default <stem>-taumap/ beside the input.
-    #[arg(long, value_name = "DIR")]
-    pub out: Option<PathBuf>,
+/// The series terms of a spectrum's model, for `invert` and `kk`.
+#[derive(Args, Debug, Clone)]
+pub struct SeriesTermArgs {
     /// Series inductance.
     #[arg(long, value_enum, default_value = "auto")]
     pub inductance: InductanceArg,
@@ -193,15 +187,56 @@ pub struct InvertArgs {
         value_name = "auto|on|off"
     )]
     pub series_capacitance: CapacitanceArg,
+}
+
+impl SeriesTermArgs {
+    /// The modes as the library takes them.
+    pub fn modes(&self) -> (InductanceMode, CapacitanceMode) {
+        (
+            match self.inductance {
+                InductanceArg::Auto => InductanceMode::Auto,
+                InductanceArg::On => InductanceMode::On,
+                InductanceArg::Off => InductanceMode::Off,
+            },
+            match self.series_capacitance {
+                CapacitanceArg::Auto => CapacitanceMode::Auto,
+                CapacitanceArg::On => CapacitanceMode::On,
+                CapacitanceArg::Off => CapacitanceMode::Off,
+            },
+        )
+    }
+}
+
+/// The band of frequencies a spectrum command uses.
+#[derive(Args, Debug, Clone, Default)]
+pub struct FrequencyBandArgs {
+    /// Use only the points at or above this frequency (Hz).
+    #[arg(long, value_name = "HZ", allow_negative_numbers = true)]
+    pub f_min: Option<f64>,
+    /// Use only the points at or below this frequency (Hz).
+    #[arg(long, value_name = "HZ", allow_negative_numbers = true)]
+    pub f_max: Option<f64>,
+}
+
+/// `taumap invert`.
+#[derive(Args, Debug)]
+pub struct InvertArgs {
+    /// Input spectrum: frequency_hz,z_re_ohm,z_im_ohm (see README for accepted
+    /// variants); `-` reads standard input (then --out is needed).
+    #[arg(value_name = "IN.csv")]
+    pub input: PathBuf,
+    /// Output directory (created if missing); default <stem>-taumap/ beside the input.
+    #[arg(long, value_name = "DIR")]
+    pub out: Option<PathBuf>,
+    /// Series terms of the model.
+    #[command(flatten)]
+    pub series: SeriesTermArgs,
     /// Residual weighting.
     #[arg(long, value_enum, default_value = "modulus")]
     pub weighting: WeightingArg,
-    /// Fit only the points at or above this frequency (Hz).
-    #[arg(long, value_name = "HZ", allow_negative_numbers = true)]
-    pub f_min: Option<f64>,
-    /// Fit only the points at or below this frequency (Hz).
-    #[arg(long, value_name = "HZ", allow_negative_numbers = true)]
-    pub f_max: Option<f64>,
+    /// The band of frequencies used.
+    #[command(flatten)]
+    pub band: FrequencyBandArgs,
     /// Column choices.
     #[command(flatten)]
     pub columns: ColumnArgs,
@@ -225,26 +260,12 @@ pub struct KkArgs {
     /// residuals.
     #[arg(long, value_name = "X", allow_negative_numbers = true)]
     pub noise_rel: Option<f64>,
-    /// Series inductance in the test's model.
-    #[arg(long, value_enum, default_value = "auto")]
-    pub inductance: InductanceArg,
-    /// Series capacitance in the test's model (a mode is given with `=`).
-    #[arg(
-        long,
-        value_enum,
-        default_value = "auto",
-        num_args = 0..=1,
-        require_equals = true,
-        default_missing_value = "on",
-        value_name = "auto|on|off"
-    )]
-    pub series_capacitance: CapacitanceArg,
-    /// Test only the points at or above this frequency (Hz).
-    #[arg(long, value_name = "HZ", allow_negative_numbers = true)]
-    pub f_min: Option<f64>,
-    /// Test only the points at or below this frequency (Hz).
-    #[arg(long, value_name = "HZ", allow_negative_numbers = true)]
-    pub f_max: Option<f64>,
+    /// Series terms of the test's model.
+    #[command(flatten)]
+    pub series: SeriesTermArgs,
+    /// The band of frequencies used.
+    #[command(flatten)]
+    pub band: FrequencyBandArgs,
     /// Column choices.
     #[command(flatten)]
     pub columns: ColumnArgs,

@@ -1,10 +1,9 @@
 //! `taumap invert`: spectrum in, DRT, fit, summary and plots out.
 
-use super::args::{
-    BasisArg, CapacitanceArg, InductanceArg, InvertArgs, OnOff, PenaltyArg, SolveArgs, WeightingArg,
-};
+use super::args::{BasisArg, InvertArgs, OnOff, PenaltyArg, SolveArgs, WeightingArg};
 use super::output::{
-    FORMATS, add_distribution, fixed6, interval_phrase, lambda_phrase, output_set, print_warnings,
+    FORMATS, add_distribution, fixed6, interval_phrase, labelled, lambda_phrase, output_set,
+    print_warnings,
 };
 use anyhow::{Result, bail};
 use std::path::{Path, PathBuf};
@@ -15,8 +14,8 @@ use taumap::kk::{KkOptions, KkTest, kk_test};
 use taumap::pipeline::adaptive::AdaptiveOptions;
 use taumap::pipeline::bands::BandOptions;
 use taumap::pipeline::{
-    CapacitanceMode, DrtOptions, InductanceMode, InvertParams, LambdaChoice, LambdaRule,
-    SpectrumInversion, Weighting, invert,
+    CapacitanceMode, DrtOptions, InvertParams, LambdaChoice, LambdaRule, SpectrumInversion,
+    Weighting, invert,
 };
 use taumap::plot;
 use taumap::report::{self, Summary};
@@ -194,25 +193,17 @@ pub(super) fn report_layout(input: &Path, layout: &SpectrumLayout) {
 pub fn run(a: &InvertArgs) -> Result<()> {
     let params = InvertParams {
         drt: drt_options_from(&a.solve, DrtOptions::default().per_decade)?,
-        inductance: match a.inductance {
-            InductanceArg::Auto => InductanceMode::Auto,
-            InductanceArg::On => InductanceMode::On,
-            InductanceArg::Off => InductanceMode::Off,
-        },
+        inductance: a.series.modes().0,
         weighting: match a.weighting {
             WeightingArg::Modulus => Weighting::Modulus,
             WeightingArg::Unit => Weighting::Unit,
         },
-        series_capacitance: match a.series_capacitance {
-            CapacitanceArg::Auto => CapacitanceMode::Auto,
-            CapacitanceArg::On => CapacitanceMode::On,
-            CapacitanceArg::Off => CapacitanceMode::Off,
-        },
+        series_capacitance: a.series.modes().1,
     };
     let out = out_dir(&a.input, a.out.as_deref())?;
     let (spectrum, layout) = read_spectrum_with(&a.input, &a.columns.map()?)?;
     report_layout(&a.input, &layout);
-    let spectrum = band(&a.input, spectrum, a.f_min, a.f_max)?;
+    let spectrum = band(&a.input, spectrum, a.band.f_min, a.band.f_max)?;
     let reader_warnings: Vec<String> = layout
         .imag_mostly_positive
         .then(|| {
@@ -303,21 +294,10 @@ pub fn report_run(summary: &Summary, out: &Path, written: &[PathBuf], json: bool
         if let Some(l) = summary.inductance_h {
             writeln!(w, "inductance = {l:.4e} H")?;
         }
-        for (i, p) in summary.peaks.iter().enumerate() {
+        for (label, p) in labelled(&summary.peaks, &summary.weak_peaks) {
             writeln!(
                 w,
-                "peak {}: tau = {:.4e} s ({:.4e} Hz), r = {} ohm{}",
-                i + 1,
-                p.tau_s,
-                p.frequency_hz,
-                fixed6(p.r_ohm),
-                interval_phrase(&p.interval, p.r_lo_ohm, p.r_hi_ohm, "ohm")
-            )?;
-        }
-        for p in &summary.weak_peaks {
-            writeln!(
-                w,
-                "weak peak: tau = {:.4e} s ({:.4e} Hz), r = {} ohm{}",
+                "{label}: tau = {:.4e} s ({:.4e} Hz), r = {} ohm{}",
                 p.tau_s,
                 p.frequency_hz,
                 fixed6(p.r_ohm),

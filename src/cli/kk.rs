@@ -2,14 +2,13 @@
 //! measured)? The linear Kramers-Kronig test of [`taumap::kk`]; residuals,
 //! summary and a residual plot out.
 
-use super::args::{CapacitanceArg, InductanceArg, KkArgs};
+use super::args::KkArgs;
 use super::invert::{band, in_file, out_dir_named, report_layout};
 use super::output::{FORMATS, output_set, report_run};
 use anyhow::{Result, bail};
 use std::path::{Path, PathBuf};
 use taumap::io::spectrum::read_spectrum_with;
 use taumap::kk::{KkOptions, kk_test};
-use taumap::pipeline::{CapacitanceMode, InductanceMode};
 use taumap::plot;
 use taumap::report::kk::{KkSummary, residuals_csv};
 
@@ -17,16 +16,8 @@ use taumap::report::kk::{KkSummary, residuals_csv};
 pub fn run(a: &KkArgs) -> Result<()> {
     let opts = KkOptions {
         noise_rel: a.noise_rel,
-        inductance: match a.inductance {
-            InductanceArg::Auto => InductanceMode::Auto,
-            InductanceArg::On => InductanceMode::On,
-            InductanceArg::Off => InductanceMode::Off,
-        },
-        capacitance: match a.series_capacitance {
-            CapacitanceArg::Auto => CapacitanceMode::Auto,
-            CapacitanceArg::On => CapacitanceMode::On,
-            CapacitanceArg::Off => CapacitanceMode::Off,
-        },
+        inductance: a.series.modes().0,
+        capacitance: a.series.modes().1,
         ..KkOptions::default()
     };
     if let Some(v) = a.noise_rel
@@ -43,7 +34,7 @@ pub fn run(a: &KkArgs) -> Result<()> {
     };
     let (spectrum, layout) = read_spectrum_with(&a.input, &a.columns.map()?)?;
     report_layout(&a.input, &layout);
-    let spectrum = band(&a.input, spectrum, a.f_min, a.f_max)?;
+    let spectrum = band(&a.input, spectrum, a.band.f_min, a.band.f_max)?;
     let t = in_file(kk_test(&spectrum, &opts), &a.input)?;
     let name = a.input.display().to_string();
     for w in &t.warnings {

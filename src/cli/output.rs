@@ -110,6 +110,16 @@ pub fn interval_phrase(
     }
 }
 
+/// The peaks of a summary for the console: `peak 1`, `peak 2`, ... then
+/// every weak one as `weak peak`.
+pub fn labelled<'a, T>(peaks: &'a [T], weak: &'a [T]) -> impl Iterator<Item = (String, &'a T)> {
+    peaks
+        .iter()
+        .enumerate()
+        .map(|(i, p)| (format!("peak {}", i + 1), p))
+        .chain(weak.iter().map(|p| ("weak peak".to_string(), p)))
+}
+
 /// The console's `lambda = ... (rule), residual rms = ... %` phrase.
 pub fn lambda_phrase(fit: &report::FitSummary) -> String {
     format!(

@@ -3,7 +3,8 @@
 use super::args::TransientArgs;
 use super::invert::{drt_options_from, in_file, out_dir};
 use super::output::{
-    FORMATS, add_distribution, fixed6, interval_phrase, lambda_phrase, output_set, print_warnings,
+    FORMATS, add_distribution, fixed6, interval_phrase, labelled, lambda_phrase, output_set,
+    print_warnings,
 };
 use anyhow::Result;
 use std::path::{Path, PathBuf};
@@ -133,20 +134,10 @@ pub fn report_run(
                 if let Some(c) = series_capacitance_f {
                     writeln!(w, "series capacitance = {c:.4e} F")?;
                 }
-                for (i, p) in peaks.iter().enumerate() {
+                for (label, p) in labelled(peaks, weak_peaks) {
                     writeln!(
                         w,
-                        "peak {}: tau = {:.4e} s, r = {} ohm{}",
-                        i + 1,
-                        p.tau_s,
-                        fixed6(p.r_ohm),
-                        interval_phrase(&p.interval, p.r_lo_ohm, p.r_hi_ohm, "ohm")
-                    )?;
-                }
-                for p in weak_peaks {
-                    writeln!(
-                        w,
-                        "weak peak: tau = {:.4e} s, r = {} ohm{}",
+                        "{label}: tau = {:.4e} s, r = {} ohm{}",
                         p.tau_s,
                         fixed6(p.r_ohm),
                         interval_phrase(&p.interval, p.r_lo_ohm, p.r_hi_ohm, "ohm")
@@ -163,20 +154,10 @@ pub fn report_run(
                     w,
                     "g_inf = {g_inf_siemens:.6e} S, g_pol = {g_pol_siemens:.6e} S (admittance distribution), {tail}"
                 )?;
-                for (i, p) in peaks.iter().enumerate() {
+                for (label, p) in labelled(peaks, weak_peaks) {
                     writeln!(
                         w,
-                        "peak {}: tau = {:.4e} s, g = {:.6e} S{}",
-                        i + 1,
-                        p.tau_s,
-                        p.g_siemens,
-                        interval_phrase(&p.interval, p.g_lo_siemens, p.g_hi_siemens, "S")
-                    )?;
-                }
-                for p in weak_peaks {
-                    writeln!(
-                        w,
-                        "weak peak: tau = {:.4e} s, g = {:.6e} S{}",
+                        "{label}: tau = {:.4e} s, g = {:.6e} S{}",
                         p.tau_s,
                         p.g_siemens,
                         interval_phrase(&p.interval, p.g_lo_siemens, p.g_hi_siemens, "S")
