@@ -78,6 +78,32 @@ fn demo_pulse_inverts_to_the_peaks_of_the_demo_spectrum() {
     assert!(t.stderr.is_empty(), "{}", t.explain());
     assert_eq!(jt["unit"], "ohm");
     assert_eq!(jt["baseline_source"], "pre_step_samples");
+    // Transients get the same uncertainty as spectra: every supported peak
+    // has its intervals around its value and a confidence of at least the
+    // support level, and the counts' probabilities add up to one.
+    for j in [&jt, &js] {
+        let support = j["bands"]["support"].as_f64().unwrap();
+        let peaks = j["peaks"].as_array().unwrap();
+        assert_eq!(
+            j["processes_supported"].as_u64().unwrap() as usize,
+            peaks.len()
+        );
+        for p in peaks {
+            let (t, r) = (p["tau_s"].as_f64().unwrap(), p["r_ohm"].as_f64().unwrap());
+            assert!(p["confidence"].as_f64().unwrap() >= support, "{p}");
+            assert!(p["tau_lo_s"].as_f64().unwrap() <= t * 1.05, "{p}");
+            assert!(p["tau_hi_s"].as_f64().unwrap() >= t / 1.05, "{p}");
+            assert!(p["r_lo_ohm"].as_f64().unwrap() <= r && r <= p["r_hi_ohm"].as_f64().unwrap());
+        }
+        let total: f64 = j["process_count_probability"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|c| c["probability"].as_f64().unwrap())
+            .sum();
+        assert!((total - 1.0).abs() < 1e-9, "{total}");
+        assert!(j["resolution_decades"].as_f64().unwrap() > 0.0);
+    }
     let (pt, ps) = (
         jt["peaks"].as_array().unwrap(),
         js["peaks"].as_array().unwrap(),
