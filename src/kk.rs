@@ -322,7 +322,7 @@ fn rms(re: &[f64], im: &[f64]) -> f64 {
 
 /// How close to the residual of the reference fit (with half as many
 /// elements as frequencies) a fit must come before its `mu` counts; see
-/// [`choose_elements`].
+/// the private function `choose_elements`.
 pub const CONVERGED_FACTOR: f64 = 1.2;
 
 /// Counts `M` up from 1 and takes the first `M` at which `mu` is below

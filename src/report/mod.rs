@@ -468,6 +468,7 @@ impl Summary {
         inv: &SpectrumInversion,
     ) -> Self {
         let drt = &inv.drt;
+        let (peaks, weak_peaks) = split_peaks(drt, PeakSummary::new);
         Self {
             input: input.to_string(),
             n_points: spectrum.len(),
@@ -479,8 +480,8 @@ impl Summary {
                 lambda: LambdaSummary::new(&drt.lambda),
                 residual_rms_rel: drt.residual_rms_rel,
             },
-            peaks: split_peaks(drt, PeakSummary::new).0,
-            weak_peaks: split_peaks(drt, PeakSummary::new).1,
+            peaks,
+            weak_peaks,
             processes: ProcessSummary::new(drt, params.drt.bands.map(|b| b.seed)),
             solver: SolverSummary::new(drt),
             settings: Settings {

@@ -213,20 +213,26 @@ impl TransientSummary {
     ) -> Self {
         let drt = &inv.drt;
         let quantities = match drt.unit {
-            DistributionUnit::Ohm => Quantities::Ohm {
-                r_inf_ohm: drt.series.instantaneous,
-                r_pol_ohm: drt.total,
-                series_capacitance_f: drt.series.series_capacitance_f.filter(|c| c.is_finite()),
-                v_inf_v: inv.fit.final_value,
-                peaks: split_peaks(drt, ohm_peak).0,
-                weak_peaks: split_peaks(drt, ohm_peak).1,
-            },
-            DistributionUnit::Siemens => Quantities::Siemens {
-                g_inf_siemens: drt.series.instantaneous.unwrap_or(0.0),
-                g_pol_siemens: drt.total,
-                peaks: split_peaks(drt, siemens_peak).0,
-                weak_peaks: split_peaks(drt, siemens_peak).1,
-            },
+            DistributionUnit::Ohm => {
+                let (peaks, weak_peaks) = split_peaks(drt, ohm_peak);
+                Quantities::Ohm {
+                    r_inf_ohm: drt.series.instantaneous,
+                    r_pol_ohm: drt.total,
+                    series_capacitance_f: drt.series.series_capacitance_f.filter(|c| c.is_finite()),
+                    v_inf_v: inv.fit.final_value,
+                    peaks,
+                    weak_peaks,
+                }
+            }
+            DistributionUnit::Siemens => {
+                let (peaks, weak_peaks) = split_peaks(drt, siemens_peak);
+                Quantities::Siemens {
+                    g_inf_siemens: drt.series.instantaneous.unwrap_or(0.0),
+                    g_pol_siemens: drt.total,
+                    peaks,
+                    weak_peaks,
+                }
+            }
         };
         Self {
             input: input.to_string(),

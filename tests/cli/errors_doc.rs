@@ -845,6 +845,20 @@ fn cases() -> Vec<Case> {
         )
         .with("step.csv", step_record("time_s,voltage_v"))
         .with("notes.txt", "lab notes\n"),
+        case(
+            SPECTRUM,
+            "too few points for the Kramers-Kronig test",
+            "`taumap kk` on 5 rows",
+            &["kk", "cell.csv"],
+        )
+        .with("cell.csv", spectrum(ROWS)),
+        case(
+            OPTIONS,
+            "`--noise-rel` not positive",
+            "`taumap kk --noise-rel 0`",
+            &["kk", "cell.csv", "--noise-rel", "0"],
+        )
+        .with("cell.csv", voigt_csv()),
     ]
 }
 
