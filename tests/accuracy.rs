@@ -450,3 +450,20 @@ fn no_spurious_peak_beside_voigt_lines_and_zarc_pairs() {
     // worse on the same spectra.
     assert!(global_spurious > adaptive_spurious, "{global_spurious}");
 }
+
+/// A resistor in series with a capacitor (a blocking electrode without
+/// any relaxation), exact data: the distribution is zero to rounding and
+/// no peak is reported (measured before the rounding floor of the peak
+/// area: two "peaks" of 5e-15 and 1e-13 ohm).
+#[test]
+fn an_exact_r_c_has_no_peak() {
+    let cell = Series(vec![
+        Element::Resistor { r_ohm: 1.0 },
+        Element::Capacitor { c_f: 1e-3 },
+    ]);
+    let inv = run(&spectrum(&cell, 0.0, 0));
+    assert!(inv.drt.peaks.is_empty(), "{:?}", inv.drt.peaks);
+    assert!(inv.drt.total < 1e-9, "{}", inv.drt.total);
+    let c = inv.drt.series.series_capacitance_f.unwrap();
+    assert!((c / 1e-3 - 1.0).abs() < 1e-6, "{c}");
+}

@@ -505,10 +505,13 @@ impl SpectrumPlan {
             / (2 * m) as f64)
             .sqrt();
         // A process whose resistance is below ~3 times the absolute noise of
-        // the fit cannot be told from the residual (common practice).
+        // the fit cannot be told from the residual (common practice); on
+        // exact data, nothing below a billionth of |Z| is more than the
+        // rounding of the solve (its tolerances are relative, 1e-10 and
+        // tighter).
         let mut sorted = modulus;
         sorted.sort_by(f64::total_cmp);
-        let min_area = 3.0 * residual_rms_rel * sorted[m / 2];
+        let min_area = (3.0 * residual_rms_rel * sorted[m / 2]).max(1e-9 * sorted[m - 1]);
         let hints = EdgeHints {
             short_name: "1/(2 pi f_max)",
             short_hint: if series.inductance_h.is_some() {

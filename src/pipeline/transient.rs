@@ -675,7 +675,9 @@ impl TransientPlan {
         };
         // A process smaller than ~3 times the fit's residual cannot be told
         // from noise (common practice).
-        let min_area = 3.0 * residual_rms_rel * s;
+        // (On exact data: nothing below a billionth of the response, the
+        // rounding of the solve.)
+        let min_area = (3.0 * residual_rms_rel * s).max(1e-9 * s);
         let mut warnings = d.warnings;
         if d.baseline.is_none()
             && !d.against_step
