@@ -31,7 +31,7 @@ fn zarc(r_ohm: f64, tau_s: f64, phi: f64) -> Element {
 /// distribution is a line, which no band of a smooth basis covers: the
 /// points within 0.3 decade of it are left out. Measured: 0.899. A band
 /// that covers by being wide fails the second check: its mean width stays
-/// below 10 % of the ZARC's peak height (measured: 4.2 %).
+/// below 5 % of the ZARC's peak height (measured: 4.2 %).
 #[test]
 fn the_90_percent_band_covers_the_truth_about_90_percent_of_the_time() {
     let cell = cells::zarc_plus_voigt();

@@ -105,10 +105,11 @@ pub struct PeakBand {
     pub tau_lo_s: f64,
     /// Upper quantile of the draws' peak tau in the region (s).
     pub tau_hi_s: f64,
-    /// Lower quantile of the draws' area over the region (the
-    /// distribution's unit).
+    /// Lower end of the interval of the area over the region (the
+    /// distribution's unit): the estimate's area minus z times its
+    /// posterior standard deviation, at least zero.
     pub r_lo: f64,
-    /// Upper quantile of the draws' area over the region.
+    /// Upper end: the area plus z times its standard deviation.
     pub r_hi: f64,
     /// Fraction of draws with a peak in the region.
     pub confidence: f64,

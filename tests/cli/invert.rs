@@ -706,3 +706,41 @@ fn the_penalty_and_its_refinement_are_reported() {
         }
     }
 }
+
+/// `--bands off` writes the two-column drt.csv of earlier versions and
+/// null intervals; `--seed` changes the draws (the peaks' tau intervals)
+/// but not the band, which needs none.
+#[test]
+fn bands_off_and_seed() {
+    let dir = tempdir();
+    let input = repo_root().join("demo-data/button-cell-700c.csv");
+    let run_with = |name: &str, extra: &[&str]| {
+        let out = dir.path().join(name);
+        let mut args = vec![
+            "invert",
+            input.to_str().unwrap(),
+            "--no-plots",
+            "--out",
+            out.to_str().unwrap(),
+        ];
+        args.extend(extra);
+        let run = taumap(dir.path(), &args);
+        assert_eq!(run.code, 0, "{}", run.explain());
+        let j: serde_json::Value =
+            serde_json::from_str(&std::fs::read_to_string(out.join("summary.json")).unwrap())
+                .unwrap();
+        (std::fs::read_to_string(out.join("drt.csv")).unwrap(), j)
+    };
+    let (csv, j) = run_with("off", &["--bands", "off"]);
+    assert!(csv.starts_with("tau_s,gamma_ohm\n"), "{}", &csv[..40]);
+    assert!(j["peaks"][0]["confidence"].is_null(), "{j}");
+    assert!(j["processes_supported"].is_null());
+    assert_eq!(j["weak_peaks"].as_array().unwrap().len(), 0);
+    let (csv1, j1) = run_with("seed1", &[]);
+    let (csv2, j2) = run_with("seed2", &["--seed", "2"]);
+    assert!(csv1.starts_with("tau_s,gamma_ohm,gamma_lo_ohm,gamma_hi_ohm\n"));
+    assert_eq!(csv1, csv2, "the band needs no draws");
+    assert_eq!(j1["bands"]["seed"], 1);
+    assert_eq!(j2["bands"]["seed"], 2);
+    assert_ne!(j1["peaks"][0]["tau_lo_s"], j2["peaks"][0]["tau_lo_s"]);
+}
