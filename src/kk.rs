@@ -69,7 +69,7 @@ pub const MU_THRESHOLD: f64 = 0.85;
 /// beyond any quantile that noise reaches (below 1e-9), and the margin
 /// covers the spread of an estimated noise level (common practice).
 /// Measured on the synthetic cells of the tests (20 seeds each, 0.1 % and
-/// 1 % noise): valid spectra reach at most 0.62 of the limit, the three
+/// 1 % noise): valid spectra reach at most 0.68 of the limit, the three
 /// drifting cells at 0.1 % noise at least 1.6 times it.
 pub const RMS_FACTOR: f64 = 2.0;
 
