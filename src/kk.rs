@@ -336,7 +336,7 @@ fn rms(re: &[f64], im: &[f64]) -> f64 {
 }
 
 /// How close to the residual of the reference fit (with as many elements
-/// as frequencies) a fit must come before its `mu` counts, as a ratio of
+/// as frequencies, at most [`MAX_ELEMENTS_PER_DECADE`] per decade) a fit must come before its `mu` counts, as a ratio of
 /// residual rms per degree of freedom; see the private function
 /// `choose_elements`.
 pub const CONVERGED_FACTOR: f64 = 1.2;
