@@ -27,6 +27,8 @@
 //! - [`lambda`]: rules for choosing lambda (GCV, L-curve, discrepancy, re-im CV).
 //! - [`peaks`]: peak detection and per-peak resistance.
 //! - [`report`]: output tables and the JSON summary.
+//! - [`series`]: series of spectra: batch inversion on one grid, peak
+//!   tracks, trends and Arrhenius fits.
 //! - [`plot`] (feature `plot`): SVG and PNG figures.
 //! - [`synth`] (feature `synth`): analytical elements for tests and the demo.
 //! - [`linalg`]: the dense [`linalg::Matrix`] of the public API.
@@ -68,6 +70,7 @@ pub mod pipeline;
 #[cfg(feature = "plot")]
 pub mod plot;
 pub mod report;
+pub mod series;
 pub mod solve;
 #[cfg(feature = "synth")]
 pub mod synth;

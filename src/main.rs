@@ -1,4 +1,6 @@
-//! Binary entry point: parse arguments, run, report `error: ...` and exit 2.
+//! Binary entry point: parse arguments, run, report `error: ...` and exit 2
+//! (or, when a series run skipped spectra but wrote the rest, `warning:
+//! ...` and exit 3).
 
 mod cli;
 
@@ -16,6 +18,10 @@ fn main() -> ExitCode {
                 && io.kind() == std::io::ErrorKind::BrokenPipe
             {
                 return ExitCode::SUCCESS;
+            }
+            if let Some(partial) = e.downcast_ref::<cli::track::PartialRun>() {
+                let _ = writeln!(std::io::stderr(), "warning: {partial}");
+                return ExitCode::from(3);
             }
             let mut msg = e.to_string();
             for cause in e.chain().skip(1) {

@@ -20,6 +20,10 @@ pub enum Command {
     Invert(InvertArgs),
     /// Invert a step transient (CSV) onto a distribution of time constants.
     Transient(TransientArgs),
+    /// Invert a series of spectra (over cycling, state of charge,
+    /// temperature) on one grid, follow each process's peak across the
+    /// series and fit its trend.
+    Track(TrackArgs),
     /// Test an impedance spectrum (CSV) for Kramers-Kronig validity
     /// (linear, causal, stable while measured).
     Kk(KkArgs),
@@ -106,9 +110,11 @@ pub struct SolveArgs {
     pub penalty_order: usize,
     /// Uncertainty bands on gamma and on every peak, peak confidence and
     /// the count of processes the data support (posterior sampling; see
-    /// README). They need the adaptive penalty.
-    #[arg(long, value_enum, default_value = "on")]
-    pub bands: OnOff,
+    /// README). They need the adaptive penalty. [default: on; off for
+    /// track, where they would cost about ten times the inversion of a
+    /// series]
+    #[arg(long, value_enum)]
+    pub bands: Option<OnOff>,
     /// Seed of the posterior draws (the same seed gives the same bands
     /// for any number of threads).
     #[arg(long, value_name = "N", default_value_t = 1)]
@@ -335,6 +341,111 @@ pub struct TransientArgs {
         allow_negative_numbers = true
     )]
     pub step_time: f64,
+    /// Column choices.
+    #[command(flatten)]
+    pub columns: ColumnArgs,
+    /// Shared solver options.
+    #[command(flatten)]
+    pub solve: SolveArgs,
+}
+
+/// Where the label of each spectrum of a series comes from.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, ValueEnum)]
+pub enum LabelFrom {
+    /// The last number in the file name (`cycle-012.csv`: 12; `T650C.csv`: 650).
+    Name,
+    /// The value of the --by column (with --series).
+    Column,
+    /// No label: the trend axis is the spectrum's position.
+    None,
+}
+
+/// Lambda policy along a series on the command line.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, ValueEnum)]
+pub enum LambdaPolicyArg {
+    /// One lambda for the whole series (the median choice of the rule on
+    /// up to 16 spectra spread over it).
+    Series,
+    /// The rule chooses for every spectrum on its own.
+    Each,
+}
+
+/// `taumap track`.
+#[derive(Args, Debug)]
+pub struct TrackArgs {
+    /// Spectra in series order, or one folder of them (every .csv, .txt,
+    /// .tsv and .dat file in it); ordered by the numbers in their file
+    /// names (cycle-9 before cycle-10) unless --keep-order.
+    #[arg(value_name = "FILE|DIR", required_unless_present = "series")]
+    pub inputs: Vec<PathBuf>,
+    /// One long file holding every spectrum, with a column naming each
+    /// row's spectrum (give it with --by).
+    #[arg(
+        long,
+        value_name = "FILE.csv",
+        conflicts_with = "inputs",
+        requires = "by"
+    )]
+    pub series: Option<PathBuf>,
+    /// The column of --series that names the spectrum (a heading, or #N
+    /// counted from 1): e.g. cycle, soc, temperature.
+    #[arg(long, value_name = "COLUMN", requires = "series")]
+    pub by: Option<String>,
+    /// Keep the files in the order given instead of ordering them by the
+    /// numbers in their names.
+    #[arg(long)]
+    pub keep_order: bool,
+    /// Output directory (created if missing); default <folder>-track/
+    /// beside the folder of the spectra, or <stem>-track/ beside --series.
+    #[arg(long, value_name = "DIR")]
+    pub out: Option<PathBuf>,
+    /// Where each spectrum's label (the x axis of every trend) comes from
+    /// [default: name for files when every name holds a number, column for
+    /// --series when every value is a number, else none].
+    #[arg(long, value_enum)]
+    pub label_from: Option<LabelFrom>,
+    /// The unit of the labels: K or degC make them temperatures and add
+    /// Arrhenius fits (activation energies in eV); any other text (cycle,
+    /// %, h) only names the axis.
+    #[arg(long, value_name = "UNIT")]
+    pub label_unit: Option<String>,
+    /// Lambda along the series.
+    #[arg(long, value_enum, default_value = "series")]
+    pub lambda_policy: LambdaPolicyArg,
+    /// Largest change of log10 tau (decades) between neighbouring peaks of
+    /// one track.
+    #[arg(
+        long,
+        value_name = "DECADES",
+        default_value_t = 1.0,
+        allow_negative_numbers = true
+    )]
+    pub gate_decades: f64,
+    /// Largest factor of change of R between neighbouring peaks of one
+    /// track.
+    #[arg(
+        long,
+        value_name = "FACTOR",
+        default_value_t = 10.0,
+        allow_negative_numbers = true
+    )]
+    pub gate_r_factor: f64,
+    /// Spectra a process may be missing from (below detection) and keep
+    /// its track.
+    #[arg(long, value_name = "N", default_value_t = 2)]
+    pub max_gap: usize,
+    /// Tracks with fewer peaks get no trend (listed as short tracks).
+    #[arg(long, value_name = "N", default_value_t = 3)]
+    pub min_track_points: usize,
+    /// Series terms of the model.
+    #[command(flatten)]
+    pub series_terms: SeriesTermArgs,
+    /// Residual weighting.
+    #[arg(long, value_enum, default_value = "modulus")]
+    pub weighting: WeightingArg,
+    /// The band of frequencies used.
+    #[command(flatten)]
+    pub band: FrequencyBandArgs,
     /// Column choices.
     #[command(flatten)]
     pub columns: ColumnArgs,

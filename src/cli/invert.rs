@@ -21,8 +21,13 @@ use taumap::plot;
 use taumap::report::{self, Summary};
 
 /// Turns the shared solver options into [`DrtOptions`], with
-/// `default_per_decade` unless `--per-decade` is given.
-pub fn drt_options_from(solve: &SolveArgs, default_per_decade: f64) -> Result<DrtOptions> {
+/// `default_per_decade` unless `--per-decade` is given, and bands unless
+/// `--bands` says otherwise when `bands_default` is on.
+pub fn drt_options_from(
+    solve: &SolveArgs,
+    default_per_decade: f64,
+    bands_default: OnOff,
+) -> Result<DrtOptions> {
     let lambda = match LambdaRule::from_name(&solve.lambda) {
         Some(rule) => LambdaChoice::Rule(rule),
         None => match solve.lambda.trim().parse::<f64>() {
@@ -48,7 +53,7 @@ pub fn drt_options_from(solve: &SolveArgs, default_per_decade: f64) -> Result<Dr
             PenaltyArg::Global => None,
             PenaltyArg::Adaptive => Some(AdaptiveOptions::default()),
         },
-        bands: match (solve.bands, solve.penalty) {
+        bands: match (solve.bands.unwrap_or(bands_default), solve.penalty) {
             (OnOff::Off, _) => None,
             (OnOff::On, PenaltyArg::Global) => {
                 eprintln!(
@@ -192,7 +197,7 @@ pub(super) fn report_layout(input: &Path, layout: &SpectrumLayout) {
 /// Runs the subcommand.
 pub fn run(a: &InvertArgs) -> Result<()> {
     let params = InvertParams {
-        drt: drt_options_from(&a.solve, DrtOptions::default().per_decade)?,
+        drt: drt_options_from(&a.solve, DrtOptions::default().per_decade, OnOff::On)?,
         inductance: a.series.modes().0,
         weighting: match a.weighting {
             WeightingArg::Modulus => Weighting::Modulus,

@@ -5,6 +5,7 @@ pub mod demo;
 pub mod invert;
 pub mod kk;
 pub mod output;
+pub mod track;
 pub mod transient;
 
 use anyhow::Result;
@@ -16,6 +17,7 @@ pub fn run(cli: Cli) -> Result<()> {
         Command::Invert(a) => invert::run(&a),
         Command::Transient(a) => transient::run(&a),
         Command::Kk(a) => kk::run(&a),
+        Command::Track(a) => track::run(&a),
         Command::Demo(a) => demo::run(&a),
     }
 }

@@ -14,7 +14,7 @@ use taumap::report;
 /// directory. A run removes those of them it does not write itself (an
 /// earlier run's plots, a `lambda.csv` from before a fixed-lambda run, the
 /// files of another command), never anything else.
-pub const OUTPUT_FILES: [&str; 17] = [
+pub const OUTPUT_FILES: [&str; 27] = [
     "drt.csv",
     "fit.csv",
     "lambda.csv",
@@ -32,6 +32,16 @@ pub const OUTPUT_FILES: [&str; 17] = [
     "residuals.csv",
     "kk.svg",
     "kk.png",
+    "tracks.csv",
+    "trends.csv",
+    "drt-series.csv",
+    "spectra.csv",
+    "heatmap.svg",
+    "heatmap.png",
+    "trends.svg",
+    "trends.png",
+    "arrhenius.svg",
+    "arrhenius.png",
 ];
 
 /// An empty set of outputs for `dir` that replaces every earlier

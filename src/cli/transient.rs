@@ -29,7 +29,7 @@ fn step_from(a: &TransientArgs) -> StepKind {
 /// Runs the subcommand.
 pub fn run(a: &TransientArgs) -> Result<()> {
     let params = TransientParams {
-        drt: drt_options_from(&a.solve, TRANSIENT_PER_DECADE)?,
+        drt: drt_options_from(&a.solve, TRANSIENT_PER_DECADE, super::args::OnOff::On)?,
         step: step_from(a),
         baseline: a.baseline,
         series_capacitance: a.series_capacitance,

@@ -52,7 +52,7 @@ use crate::error::{Error, Result};
 use crate::io::columns::{
     BaseUnit, ColumnMap, DEGREE, HZ, OHM, RADIAN, UnitReading, unit_examples, unit_factor,
 };
-use crate::io::table::{TableHead, TableReader, TextEncoding, excerpt, split_unit};
+use crate::io::table::{Row, TableHead, TableReader, TextEncoding, excerpt, split_unit};
 
 /// Minimum number of points a spectrum file must hold.
 pub const MIN_POINTS: usize = 5;
@@ -381,9 +381,6 @@ pub fn parse_spectrum_with<R: BufRead>(
         }
     };
     let choice = choose_columns(&table, map)?;
-    let [f_col, a_col, b_col] = choice.columns;
-    let [f_scale, a_scale, b_scale] = choice.factors;
-
     let mut points = Vec::new();
     while let Some(row) = table.next_row()? {
         if points.len() == MAX_POINTS {
@@ -395,45 +392,96 @@ pub fn parse_spectrum_with<R: BufRead>(
                 ),
             ));
         }
-        let f = table.converted(&row, f_col, f_scale)?;
-        if f <= 0.0 {
+        points.push(row_point(&table, &row, &choice)?);
+    }
+    let (points, imag_mostly_positive) = finish_points(points, &table, path, &choice)?;
+    let layout = layout_of(&table, &choice, imag_mostly_positive, table.encoding());
+    Ok((Spectrum::from_sorted(&points), layout))
+}
+
+/// How `table` was read with `choice`.
+fn layout_of(
+    table: &TableHead,
+    choice: &Choice,
+    imag_mostly_positive: bool,
+    encoding: TextEncoding,
+) -> SpectrumLayout {
+    SpectrumLayout {
+        delimiter: table.delimiter,
+        header_line: table.header_line,
+        columns: choice.columns,
+        column_names: choice.columns.map(|c| table.column_name(c).to_string()),
+        negated_imag: choice.negated && !choice.polar,
+        polar: choice.polar,
+        imag_mostly_positive,
+        ignored_columns: table
+            .header
+            .iter()
+            .enumerate()
+            .filter(|(i, _)| !choice.columns.contains(i))
+            .map(|(_, name)| name.clone())
+            .collect(),
+        negated_phase: choice.negated && choice.polar,
+        factors: choice.factors,
+        preamble: table.preamble,
+        encoding,
+    }
+}
+
+/// One row of `table` as a point of the spectrum (`choice` says where).
+fn row_point(table: &TableHead, row: &Row, choice: &Choice) -> Result<Point> {
+    let [f_col, a_col, b_col] = choice.columns;
+    let [f_scale, a_scale, b_scale] = choice.factors;
+    let f = table.converted(row, f_col, f_scale)?;
+    if f <= 0.0 {
+        return Err(table.error(
+            row.line,
+            format!(
+                "frequency must be positive, found {} (column {})",
+                excerpt(row.field(f_col)),
+                table.column_name(f_col)
+            ),
+        ));
+    }
+    let a = table.converted(row, a_col, a_scale)?;
+    let b = table.converted(row, b_col, b_scale)?;
+    let (re, im) = if choice.polar {
+        if a < 0.0 {
             return Err(table.error(
                 row.line,
                 format!(
-                    "frequency must be positive, found {} (column {})",
-                    excerpt(row.field(f_col)),
-                    table.column_name(f_col)
+                    "modulus must not be negative, found {} (column {})",
+                    excerpt(row.field(a_col)),
+                    table.column_name(a_col)
                 ),
             ));
         }
-        let a = table.converted(&row, a_col, a_scale)?;
-        let b = table.converted(&row, b_col, b_scale)?;
-        let (re, im) = if choice.polar {
-            if a < 0.0 {
-                return Err(table.error(
-                    row.line,
-                    format!(
-                        "modulus must not be negative, found {} (column {})",
-                        excerpt(row.field(a_col)),
-                        table.column_name(a_col)
-                    ),
-                ));
-            }
-            let phi = if choice.negated { -b } else { b }.to_radians();
-            (a * phi.cos(), a * phi.sin())
-        } else if choice.negated {
-            (a, -b)
-        } else {
-            (a, b)
-        };
-        points.push(Point {
-            f,
-            re,
-            im,
-            at: row.line,
-        });
-    }
+        let phi = if choice.negated { -b } else { b }.to_radians();
+        (a * phi.cos(), a * phi.sin())
+    } else if choice.negated {
+        (a, -b)
+    } else {
+        (a, b)
+    };
+    Ok(Point {
+        f,
+        re,
+        im,
+        at: row.line,
+    })
+}
 
+/// The points of one spectrum sorted by frequency and checked (no repeated
+/// frequency, at least [`MIN_POINTS`], a negated imaginary column that
+/// does not carry the physical sign already); also whether most imaginary
+/// parts are positive.
+fn finish_points(
+    mut points: Vec<Point>,
+    table: &TableHead,
+    path: &Path,
+    choice: &Choice,
+) -> Result<(Vec<Point>, bool)> {
+    let b_col = choice.columns[2];
     sort_points(&mut points);
     if let Some((a, b)) = first_duplicate(&points) {
         return Err(table.error(
@@ -469,27 +517,7 @@ pub fn parse_spectrum_with<R: BufRead>(
         ));
     }
 
-    let layout = SpectrumLayout {
-        delimiter: table.delimiter,
-        header_line: table.header_line,
-        columns: choice.columns,
-        column_names: choice.columns.map(|c| table.column_name(c).to_string()),
-        negated_imag: choice.negated && !choice.polar,
-        polar: choice.polar,
-        imag_mostly_positive,
-        ignored_columns: table
-            .header
-            .iter()
-            .enumerate()
-            .filter(|(i, _)| !choice.columns.contains(i))
-            .map(|(_, name)| name.clone())
-            .collect(),
-        negated_phase: choice.negated && choice.polar,
-        factors: choice.factors,
-        preamble: table.preamble,
-        encoding: table.encoding(),
-    };
-    Ok((Spectrum::from_sorted(&points), layout))
+    Ok((points, imag_mostly_positive))
 }
 
 /// One point before sorting; `at` is the file line or the input index.
@@ -688,6 +716,218 @@ fn choose_columns(table: &TableHead, map: &ColumnMap) -> Result<Choice> {
         polar,
         factors,
     })
+}
+
+/// At most this many data rows in one series file (every spectrum of it
+/// is held in memory while it is read: about 32 bytes a row, 640 MB at the
+/// limit). A larger campaign is given as one file per spectrum.
+pub const MAX_SERIES_ROWS: usize = 20_000_000;
+
+/// One spectrum of a series file: the rows that share a value of the
+/// naming column.
+#[derive(Debug)]
+pub struct SeriesEntry {
+    /// The naming column's text for these rows.
+    pub key: String,
+    /// The naming column's text as a number, when it is one.
+    pub label: Option<f64>,
+    /// 1-based line of the spectrum's first row.
+    pub first_line: usize,
+    /// The spectrum, or why its rows do not make one (the error names the
+    /// file and line).
+    pub spectrum: Result<Spectrum>,
+}
+
+/// Reads a long file that holds many spectra, one after another or
+/// interleaved, with a column (`by`: a heading, or `#N` counted from 1)
+/// naming the spectrum each row belongs to (a cycle number, a state of
+/// charge, a temperature). The spectra come in order of their first row.
+///
+/// A spectrum whose rows cannot be used (a bad value, a repeated
+/// frequency, too few points) gets its error and the others are read on;
+/// a file without a usable header or naming column, or a row the table
+/// reader refuses, fails the whole file.
+pub fn read_spectrum_series(
+    path: &Path,
+    map: &ColumnMap,
+    by: &str,
+) -> Result<(Vec<SeriesEntry>, SpectrumLayout)> {
+    let file = File::open(path).map_err(|source| Error::Io {
+        path: path.to_path_buf(),
+        source,
+    })?;
+    parse_spectrum_series(BufReader::new(file), path, map, by)
+}
+
+/// Like [`read_spectrum_series`], from `reader`; `path` only labels errors.
+pub fn parse_spectrum_series<R: BufRead>(
+    reader: R,
+    path: &Path,
+    map: &ColumnMap,
+    by: &str,
+) -> Result<(Vec<SeriesEntry>, SpectrumLayout)> {
+    map.check_roles(ROLES)?;
+    let found = TableReader::find_header(reader, path, CANONICAL_HEADER, |head| {
+        names_a_spectrum(head, map)
+    })?;
+    let mut table = match found {
+        Ok(table) => table,
+        Err(no) => {
+            if no.single_candidate() {
+                choose_columns(&no.first, map)?;
+            }
+            return Err(no.error("frequency and impedance columns", CANONICAL_HEADER));
+        }
+    };
+    let choice = choose_columns(&table, map)?;
+    let by_col = series_column(&table, by)?;
+    if choice.columns.contains(&by_col) {
+        return Err(table.error(
+            table.header_line,
+            format!(
+                "--by column \"{}\" is one of the spectrum's own columns",
+                table.column_name(by_col)
+            ),
+        ));
+    }
+    struct Group {
+        key: String,
+        first_line: usize,
+        points: std::result::Result<Vec<Point>, Error>,
+    }
+    let mut groups: Vec<Group> = Vec::new();
+    let mut index: std::collections::HashMap<String, usize> = std::collections::HashMap::new();
+    let mut rows = 0usize;
+    while let Some(row) = table.next_row()? {
+        rows += 1;
+        if rows > MAX_SERIES_ROWS {
+            return Err(table.error(
+                row.line,
+                format!(
+                    "more than {MAX_SERIES_ROWS} rows in one series file (give the spectra as \
+                     separate files)"
+                ),
+            ));
+        }
+        let key = row.field(by_col).trim().to_string();
+        if key.is_empty() {
+            return Err(table.error(
+                row.line,
+                format!(
+                    "the --by column \"{}\" is empty: every row must name its spectrum",
+                    table.column_name(by_col)
+                ),
+            ));
+        }
+        let g = *index.entry(key.clone()).or_insert_with(|| {
+            groups.push(Group {
+                key,
+                first_line: row.line,
+                points: Ok(Vec::new()),
+            });
+            groups.len() - 1
+        });
+        let group = &mut groups[g];
+        if let Ok(points) = &mut group.points {
+            if points.len() == MAX_POINTS {
+                group.points = Err(table.error(
+                    row.line,
+                    format!("more than {MAX_POINTS} points in one spectrum"),
+                ));
+            } else {
+                match row_point(&table, &row, &choice) {
+                    Ok(p) => points.push(p),
+                    Err(e) => group.points = Err(e),
+                }
+            }
+        }
+    }
+    let mut any_imag_positive = false;
+    let entries: Vec<SeriesEntry> = groups
+        .into_iter()
+        .map(|g| {
+            let spectrum = g.points.and_then(|points| {
+                let (points, imag) =
+                    finish_points(points, &table, path, &choice).map_err(|e| match e {
+                        Error::TooFewPoints { needed, found, .. } => table.error(
+                            g.first_line,
+                            format!(
+                                "spectrum \"{}\" has {found} points; at least {needed} are needed",
+                                g.key
+                            ),
+                        ),
+                        e => e,
+                    })?;
+                any_imag_positive |= imag;
+                Ok(Spectrum::from_sorted(&points))
+            });
+            let label = parse_label(&g.key);
+            SeriesEntry {
+                key: g.key,
+                label,
+                first_line: g.first_line,
+                spectrum,
+            }
+        })
+        .collect();
+    if entries.is_empty() {
+        return Err(Error::TooFewPoints {
+            path: path.to_path_buf(),
+            needed: MIN_POINTS,
+            found: 0,
+        });
+    }
+    let layout = layout_of(&table, &choice, any_imag_positive, table.encoding());
+    Ok((entries, layout))
+}
+
+/// A naming column's text as a number: a plain decimal number, with a
+/// decimal comma accepted; `None` otherwise.
+fn parse_label(key: &str) -> Option<f64> {
+    let t = key.trim();
+    t.parse::<f64>()
+        .ok()
+        .or_else(|| t.replacen(',', ".", 1).parse::<f64>().ok())
+        .filter(|v| v.is_finite())
+}
+
+/// The column `by` names: `#N` (from 1) or a heading, matched as written,
+/// then by its normalised name.
+fn series_column(table: &TableHead, by: &str) -> Result<usize> {
+    let by = by.trim();
+    let n = table.header.len();
+    if let Some(num) = by.strip_prefix('#') {
+        return match num.parse::<usize>() {
+            Ok(k) if (1..=n).contains(&k) => Ok(k - 1),
+            _ => Err(table.error(
+                table.header_line,
+                format!("--by {by}: the header has columns #1 to #{n}"),
+            )),
+        };
+    }
+    let exact: Vec<usize> = (0..n).filter(|&i| table.header[i].trim() == by).collect();
+    let found = if exact.is_empty() {
+        let want = crate::io::table::normalize_name(by);
+        (0..n)
+            .filter(|&i| crate::io::table::normalize_name(&table.header[i]) == want)
+            .collect()
+    } else {
+        exact
+    };
+    match found.as_slice() {
+        [c] => Ok(*c),
+        [] => Err(table.error(
+            table.header_line,
+            format!(
+                "no column \"{by}\" for --by; the header has: {}",
+                table.header.join(", ")
+            ),
+        )),
+        _ => Err(table.error(
+            table.header_line,
+            format!("more than one column is called \"{by}\"; give --by #N"),
+        )),
+    }
 }
 
 #[cfg(test)]

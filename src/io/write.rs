@@ -51,10 +51,13 @@ pub fn write_atomic(path: &Path, bytes: &[u8]) -> Result<()> {
 ///
 /// Nothing touches the disk before [`OutputSet::commit`], so a run that
 /// fails while computing its results leaves the output directory as it was.
-#[derive(Debug, Clone, Default, PartialEq, Eq)]
+#[derive(Debug, Default)]
 pub struct OutputSet {
     dir: PathBuf,
     files: Vec<(String, Vec<u8>)>,
+    /// Files streamed to disk already ([`StreamFile`]), renamed into place
+    /// with the others.
+    staged: Vec<(String, StagedFile)>,
     /// Names an earlier run may have left in `dir` that this set replaces:
     /// those it does not write are removed after a successful commit.
     owned: Vec<String>,
@@ -66,6 +69,7 @@ impl OutputSet {
         OutputSet {
             dir: dir.into(),
             files: Vec::new(),
+            staged: Vec::new(),
             owned: Vec::new(),
         }
     }
@@ -87,17 +91,37 @@ impl OutputSet {
 
     /// Number of staged files.
     pub fn len(&self) -> usize {
-        self.files.len()
+        self.files.len() + self.staged.len()
     }
 
     /// Whether no file has been staged.
     pub fn is_empty(&self) -> bool {
-        self.files.is_empty()
+        self.len() == 0
     }
 
-    /// Names of the staged files, in the order they were added.
+    /// Names of the staged files: those held in memory in the order they
+    /// were added, then the streamed ones.
     pub fn names(&self) -> impl Iterator<Item = &str> {
-        self.files.iter().map(|(name, _)| name.as_str())
+        self.files
+            .iter()
+            .map(|(name, _)| name.as_str())
+            .chain(self.staged.iter().map(|(name, _)| name.as_str()))
+    }
+
+    /// Adds a file streamed to disk ([`StreamFile::finish`]) under `name`;
+    /// it must have been created in this set's directory. The same checks
+    /// as [`Self::add`].
+    pub fn add_streamed(&mut self, name: impl Into<String>, file: StagedFile) -> Result<()> {
+        let name = name.into();
+        self.check_name(&name)?;
+        if file.path.parent() != Some(self.dir.as_path()) {
+            return Err(Error::Io {
+                path: self.dir.join(&name),
+                source: invalid("streamed into another directory"),
+            });
+        }
+        self.staged.push((name, file));
+        Ok(())
     }
 
     /// Stages a file called `name` (a plain file name, no directories).
@@ -106,23 +130,28 @@ impl OutputSet {
     /// contains a path separator, is `.` or `..`, or was already added.
     pub fn add(&mut self, name: impl Into<String>, bytes: impl Into<Vec<u8>>) -> Result<()> {
         let name = name.into();
+        self.check_name(&name)?;
+        self.files.push((name, bytes.into()));
+        Ok(())
+    }
+
+    fn check_name(&self, name: &str) -> Result<()> {
         let plain =
             !name.is_empty() && name != "." && name != ".." && !name.contains(['/', '\\', '\0']);
         let problem = if !plain {
             Some("not a plain file name")
-        } else if self.files.iter().any(|(n, _)| *n == name) {
+        } else if self.names().any(|n| n == name) {
             Some("added twice to the same set of outputs")
         } else {
             None
         };
-        if let Some(msg) = problem {
-            return Err(Error::Io {
-                path: self.dir.join(&name),
+        match problem {
+            Some(msg) => Err(Error::Io {
+                path: self.dir.join(name),
                 source: invalid(msg),
-            });
+            }),
+            None => Ok(()),
         }
-        self.files.push((name, bytes.into()));
-        Ok(())
     }
 
     /// Writes every staged file into the directory, creating it if needed,
@@ -141,7 +170,12 @@ impl OutputSet {
     /// [`Self::commit`] with the temporary-file writer as a parameter, so
     /// tests can make a write fail part-way.
     fn commit_with(self, write: impl Fn(&Path, &[u8]) -> io::Result<()>) -> Result<Vec<PathBuf>> {
-        let dir = self.dir;
+        let OutputSet {
+            dir,
+            files,
+            mut staged,
+            owned,
+        } = self;
         if fs::metadata(&dir).is_ok_and(|m| !m.is_dir()) {
             return Err(Error::Io {
                 path: dir.clone(),
@@ -155,7 +189,11 @@ impl OutputSet {
             path: dir.clone(),
             source,
         })?;
-        let targets: Vec<PathBuf> = self.files.iter().map(|(n, _)| dir.join(n)).collect();
+        let targets: Vec<PathBuf> = files
+            .iter()
+            .map(|(n, _)| dir.join(n))
+            .chain(staged.iter().map(|(n, _)| dir.join(n)))
+            .collect();
 
         // A directory in the way would only make the rename fail, after
         // other files were replaced already; refuse before writing anything.
@@ -172,11 +210,12 @@ impl OutputSet {
         }
 
         let mut temps: Vec<PathBuf> = Vec::with_capacity(targets.len());
-        for ((_, bytes), target) in self.files.iter().zip(&targets) {
+        for ((_, bytes), target) in files.iter().zip(&targets) {
             let tmp = temp_path(&dir);
             let written = write(&tmp, bytes);
             temps.push(tmp);
             if let Err(source) = written {
+                // The streamed files remove themselves when dropped.
                 temps.iter().for_each(|t| remove_quietly(t));
                 return Err(Error::Io {
                     path: target.clone(),
@@ -184,6 +223,7 @@ impl OutputSet {
                 });
             }
         }
+        temps.extend(staged.iter().map(|(_, f)| f.path.clone()));
 
         for (i, (tmp, target)) in temps.iter().zip(&targets).enumerate() {
             if let Err(source) = fs::rename(tmp, target) {
@@ -193,11 +233,14 @@ impl OutputSet {
                     source,
                 });
             }
+            if let Some((_, f)) = i.checked_sub(files.len()).and_then(|k| staged.get_mut(k)) {
+                f.placed = true;
+            }
         }
         // Only now, with every new file in place: results of an earlier run
         // that this one does not replace would be read as this run's.
-        for name in &self.owned {
-            if self.files.iter().any(|(n, _)| n == name) {
+        for name in &owned {
+            if files.iter().any(|(n, _)| n == name) || staged.iter().any(|(n, _)| n == name) {
                 continue;
             }
             let stale = dir.join(name);
@@ -210,6 +253,101 @@ impl OutputSet {
         }
         sync_dir(&dir);
         Ok(targets)
+    }
+}
+
+/// A file written piece by piece (a table of many spectra) under a
+/// temporary name in its final directory, so that memory does not grow
+/// with its size. [`Self::finish`] syncs it for an [`OutputSet`]; dropped
+/// before that, or never committed, it removes itself: an output
+/// directory never holds a half-written table under a final name.
+#[derive(Debug)]
+pub struct StreamFile {
+    path: PathBuf,
+    out: Option<io::BufWriter<File>>,
+}
+
+impl StreamFile {
+    /// Creates a temporary file in `dir`, creating `dir` if needed (a
+    /// folder left empty by a failed run is the only trace it can leave).
+    pub fn create(dir: &Path) -> Result<Self> {
+        if fs::metadata(dir).is_ok_and(|m| !m.is_dir()) {
+            return Err(Error::Io {
+                path: dir.to_path_buf(),
+                source: io::Error::new(
+                    io::ErrorKind::AlreadyExists,
+                    "is a file, not a folder (choose another output folder)",
+                ),
+            });
+        }
+        let io_err = |source| Error::Io {
+            path: dir.to_path_buf(),
+            source,
+        };
+        fs::create_dir_all(dir).map_err(io_err)?;
+        let path = temp_path(dir);
+        let file = OpenOptions::new()
+            .write(true)
+            .create_new(true)
+            .open(&path)
+            .map_err(io_err)?;
+        Ok(Self {
+            path,
+            out: Some(io::BufWriter::with_capacity(1 << 16, file)),
+        })
+    }
+
+    /// Flushes and syncs the file, ready for [`OutputSet::add_streamed`].
+    pub fn finish(mut self) -> Result<StagedFile> {
+        let out = self.out.take().expect("a stream is finished once");
+        let path = std::mem::take(&mut self.path);
+        let synced = out
+            .into_inner()
+            .map_err(|e| e.into_error())
+            .and_then(|f| f.sync_all());
+        let staged = StagedFile {
+            path,
+            placed: false,
+        };
+        synced.map_err(|source| Error::Io {
+            path: staged.path.clone(),
+            source,
+        })?;
+        Ok(staged)
+    }
+}
+
+impl Write for StreamFile {
+    fn write(&mut self, buf: &[u8]) -> io::Result<usize> {
+        self.out.as_mut().expect("no write after finish").write(buf)
+    }
+
+    fn flush(&mut self) -> io::Result<()> {
+        self.out.as_mut().expect("no write after finish").flush()
+    }
+}
+
+impl Drop for StreamFile {
+    fn drop(&mut self) {
+        if self.out.take().is_some() {
+            remove_quietly(&self.path);
+        }
+    }
+}
+
+/// A finished [`StreamFile`], waiting for [`OutputSet::commit`]; removed
+/// when dropped uncommitted.
+#[derive(Debug)]
+pub struct StagedFile {
+    path: PathBuf,
+    placed: bool,
+}
+
+impl Drop for StagedFile {
+    fn drop(&mut self) {
+        if !self.placed {
+            remove_quietly(&self.path);
+        }
     }
 }
 
@@ -458,5 +596,50 @@ mod tests {
             "{e}"
         );
         assert_eq!(fs::read_to_string(&file).unwrap(), "not a dir");
+    }
+
+    #[test]
+    fn streamed_files_join_the_commit_and_leave_nothing_when_dropped() {
+        let dir = tempfile::tempdir().unwrap();
+        let out = dir.path().join("series");
+        // Dropped unfinished: no file stays.
+        {
+            let mut s = StreamFile::create(&out).unwrap();
+            s.write_all(b"half").unwrap();
+        }
+        assert!(entries(&out).is_empty(), "{:?}", entries(&out));
+        // Finished but never committed: removed when dropped.
+        drop(StreamFile::create(&out).unwrap().finish().unwrap());
+        assert!(entries(&out).is_empty());
+        // Committed with a file held in memory; an owned stale name goes.
+        fs::write(out.join("old.csv"), "stale").unwrap();
+        let mut s = StreamFile::create(&out).unwrap();
+        for i in 0..1000 {
+            writeln!(s, "{i}").unwrap();
+        }
+        let mut set = OutputSet::new(&out).owning(&["old.csv", "rows.csv", "summary.json"]);
+        set.add("summary.json", "{}").unwrap();
+        set.add_streamed("rows.csv", s.finish().unwrap()).unwrap();
+        assert_eq!(
+            set.names().collect::<Vec<_>>(),
+            ["summary.json", "rows.csv"]
+        );
+        let written = set.commit().unwrap();
+        assert_eq!(written, [out.join("summary.json"), out.join("rows.csv")]);
+        assert_eq!(entries(&out), ["rows.csv", "summary.json"]);
+        let rows = fs::read_to_string(out.join("rows.csv")).unwrap();
+        assert_eq!(rows.lines().count(), 1000);
+        // A failed commit removes the streamed temporary too and keeps the
+        // earlier files.
+        let mut s = StreamFile::create(&out).unwrap();
+        s.write_all(b"new rows").unwrap();
+        let mut set = OutputSet::new(&out);
+        set.add("summary.json", "{\"new\": 1}").unwrap();
+        set.add_streamed("rows.csv", s.finish().unwrap()).unwrap();
+        assert!(set.add("rows.csv", "twice").is_err());
+        let fail = |_: &Path, _: &[u8]| Err(io::Error::other("disk full"));
+        assert!(set.commit_with(fail).is_err());
+        assert_eq!(entries(&out), ["rows.csv", "summary.json"]);
+        assert_eq!(fs::read_to_string(out.join("rows.csv")).unwrap(), rows);
     }
 }

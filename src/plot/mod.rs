@@ -13,6 +13,10 @@
 //!   the band the verdict allows.
 //! - [`render_lambda`]: one panel of score against λ per selection rule.
 //! - [`render_transient`]: a step response and its fit, with residuals.
+//! - [`render_heatmap`], [`render_trends`], [`render_arrhenius`]: a series
+//!   of spectra: its distributions as a heat map with the tracked processes
+//!   drawn over it, the processes' τ and R against the series, and their
+//!   Arrhenius plot with fitted activation energies.
 //!
 //! Text uses DejaVu Sans, compiled into the crate, so PNG output does not
 //! depend on fonts installed on the machine. SVG output names the same
@@ -33,6 +37,7 @@ mod drt;
 mod kk;
 mod lambda;
 mod nyquist;
+mod series;
 #[cfg(test)]
 mod testutil;
 mod transient;
@@ -42,6 +47,10 @@ pub use drt::render_drt;
 pub use kk::render_kk;
 pub use lambda::render_lambda;
 pub use nyquist::{equal_scale_ranges, render_nyquist};
+pub use series::{
+    ArrheniusFigure, ArrheniusTrack, HeatmapFigure, TrackLine, TrackSeries, TrendFigure,
+    render_arrhenius, render_heatmap, render_trends,
+};
 pub use transient::render_transient;
 
 /// Output encoding of a figure.

@@ -7,11 +7,12 @@
 //! - `summary.json`: see [`Summary`]
 //!
 //! The outputs of a step transient are in [`transient`], those of the
-//! Kramers-Kronig test in [`kk`]. Both take the one
+//! Kramers-Kronig test in [`kk`], those of a series run in [`series`]. Both take the one
 //! result type [`Distribution`]: `drt.csv`, `lambda.csv` and the shared
 //! parts of `summary.json` are written by the same code for both.
 
 pub mod kk;
+pub mod series;
 pub mod transient;
 
 use crate::grid::TauGrid;

@@ -1,0 +1,503 @@
+//! Series of spectra (over cycling, state of charge, temperature): batch
+//! inversion on one grid, peaks linked into tracks, trends of each track.
+//!
+//! - [`batch`]: every spectrum on one common tau grid, plans shared by
+//!   spectra of equal frequencies, in parallel; the lambda policy.
+//! - [`link`]: the peaks of neighbouring spectra assigned to tracks with
+//!   stable ids (global nearest neighbour, Hungarian method).
+//! - [`trend`]: least-squares slopes with standard errors and Arrhenius
+//!   activation energies.
+//!
+//! [`Tracker`] holds what linking and the trends need (one small record per
+//! linked peak), so a caller can stream each spectrum's distribution to
+//! disk and drop it. [`track_series`] runs all of it on spectra in memory.
+
+pub mod batch;
+pub mod link;
+pub mod trend;
+
+pub use batch::{BatchInverter, LambdaPolicy, PILOT_SPECTRA, pilot_positions};
+pub use link::{LinkOptions, Linker, PeakPoint};
+pub use trend::{Activation, K_B_EV_PER_K, LineFit, TemperatureUnit, arrhenius, fit_line};
+
+use crate::io::Spectrum;
+use crate::pipeline::{Distribution, InvertParams, SpectrumInversion};
+use crate::{Error, Result};
+
+/// One linked peak: a point of a track.
+#[derive(Clone, Copy, Debug, PartialEq, serde::Serialize)]
+pub struct TrackPoint {
+    /// 0-based position of the spectrum in the series.
+    pub spectrum: usize,
+    /// The spectrum's label (cycle, state of charge, temperature), if any.
+    pub label: Option<f64>,
+    /// Track id (from 1).
+    pub track: u32,
+    /// Peak time constant (s): where the distribution is highest.
+    pub tau_s: f64,
+    /// The peak's mean time constant (s): `exp` of the mean of `ln tau`
+    /// over the peak's region weighted by the distribution. For a
+    /// symmetric peak (ZARC, Voigt) it is the peak's tau; it scatters less
+    /// than the maximum on a broad, noisy peak, so the trends use it.
+    pub tau_mean_s: f64,
+    /// The process's resistance in this spectrum (ohm): its peak's area
+    /// plus the areas of the short-lived peaks folded into it (see
+    /// [`Tracker::finish`]).
+    pub r_ohm: f64,
+    /// The distribution at the peak (ohm per unit ln tau).
+    pub gamma_ohm: f64,
+    /// Whether the track has at least the minimum number of points (a
+    /// process followed along the series) rather than a short-lived peak.
+    pub persistent: bool,
+    /// The area of this peak alone (ohm), before folding.
+    pub r_peak_ohm: f64,
+}
+
+/// The trend of one track.
+#[derive(Clone, Debug, PartialEq, serde::Serialize)]
+pub struct Trend {
+    /// Track id.
+    pub track: u32,
+    /// Spectra in which the track has a peak.
+    pub points: usize,
+    /// First and last spectrum position with a peak.
+    pub first_spectrum: usize,
+    /// Last spectrum position with a peak.
+    pub last_spectrum: usize,
+    /// Trend axis value (label, or position without labels) of the first
+    /// point.
+    pub first_x: f64,
+    /// Trend axis value of the last point.
+    pub last_x: f64,
+    /// Mean tau ([`TrackPoint::tau_mean_s`]) of the first point (s).
+    pub tau_first_s: f64,
+    /// Mean tau of the last point (s).
+    pub tau_last_s: f64,
+    /// R of the first point (ohm).
+    pub r_first_ohm: f64,
+    /// R of the last point (ohm).
+    pub r_last_ohm: f64,
+    /// `tau_last / tau_first - 1`.
+    pub tau_change_rel: f64,
+    /// `r_last / r_first - 1`.
+    pub r_change_rel: f64,
+    /// log10(tau_mean / s) against the trend axis.
+    pub log10_tau_line: Option<LineFit>,
+    /// R (ohm) against the trend axis.
+    pub r_line: Option<LineFit>,
+    /// Arrhenius fit of 1/tau, when the labels are temperatures.
+    pub ea_tau: Option<Activation>,
+    /// Arrhenius fit of 1/R, when the labels are temperatures.
+    pub ea_r: Option<Activation>,
+}
+
+/// A peak as linked, with what folding needs.
+#[derive(Clone, Debug)]
+struct LinkedPeak {
+    track: Option<u32>,
+    tau_s: f64,
+    tau_mean_s: f64,
+    area: f64,
+    height: f64,
+    /// The distribution at the lower and upper end of the peak's region
+    /// (the separating minima, or the grid's ends).
+    valley_lo: f64,
+    valley_hi: f64,
+}
+
+#[derive(Clone, Debug)]
+struct Observed {
+    spectrum: usize,
+    label: Option<f64>,
+    peaks: Vec<LinkedPeak>,
+}
+
+/// Linking state and the linked peaks of a series: a few numbers per peak,
+/// whatever the size of the distributions.
+#[derive(Clone, Debug)]
+pub struct Tracker {
+    linker: Linker,
+    observed: Vec<Observed>,
+    labels_complete: bool,
+}
+
+/// The tracks of a series after [`Tracker::finish`].
+#[derive(Clone, Debug)]
+pub struct TrackSet {
+    /// Every linked peak, in series order, ascending tau within a spectrum.
+    pub points: Vec<TrackPoint>,
+    /// Ids of the short-lived tracks (fewer points than the minimum).
+    pub short_tracks: Vec<u32>,
+    /// Whether every spectrum had a label (the trend axis is then the
+    /// label; otherwise the spectrum position).
+    pub labelled: bool,
+}
+
+impl Tracker {
+    /// An empty tracker.
+    pub fn new(link: LinkOptions) -> Result<Self> {
+        Ok(Self {
+            linker: Linker::new(link)?,
+            observed: Vec::new(),
+            labels_complete: true,
+        })
+    }
+
+    /// Links the peaks of `drt`, the distribution of spectrum `spectrum`
+    /// (ascending positions over calls; a skipped spectrum is simply not
+    /// pushed).
+    pub fn push(&mut self, spectrum: usize, label: Option<f64>, drt: &Distribution) {
+        self.labels_complete &= label.is_some();
+        let offered: Vec<PeakPoint> = drt
+            .peaks
+            .iter()
+            .map(|p| PeakPoint {
+                tau_s: p.tau_s,
+                r_ohm: p.area,
+            })
+            .collect();
+        let ids = self.linker.push(spectrum, &offered);
+        let at = |tau_s: f64| gamma_at(drt, tau_s);
+        let peaks = drt
+            .peaks
+            .iter()
+            .zip(ids)
+            .map(|(p, track)| LinkedPeak {
+                track,
+                tau_s: p.tau_s,
+                tau_mean_s: log_mean_tau(drt, p).unwrap_or(p.tau_s),
+                area: p.area,
+                height: p.height,
+                valley_lo: at(p.tau_lo_s),
+                valley_hi: at(p.tau_hi_s),
+            })
+            .collect();
+        self.observed.push(Observed {
+            spectrum,
+            label,
+            peaks,
+        });
+    }
+
+    /// Tracks started so far.
+    pub fn tracks_started(&self) -> u32 {
+        self.linker.tracks_started()
+    }
+
+    /// The tracks. A track with fewer than `min_points` points is
+    /// short-lived: a ripple of the regularised solution or a feature
+    /// at the detection limit, not a process to follow. In each spectrum,
+    /// the area of a short-lived peak is folded into its neighbour across
+    /// the shallower of its two separating minima (the rule by which the
+    /// peak finder merges a maximum that is not a peak, [`crate::peaks`]),
+    /// so that a ripple in the valley between two processes does not take
+    /// resistance from them: the persistent tracks' `r_ohm` add up to the
+    /// total of the spectrum's peaks.
+    pub fn finish(&self, min_points: usize) -> TrackSet {
+        let min_points = min_points.max(1);
+        let mut counts: std::collections::HashMap<u32, usize> = std::collections::HashMap::new();
+        for o in &self.observed {
+            for p in &o.peaks {
+                if let Some(t) = p.track {
+                    *counts.entry(t).or_default() += 1;
+                }
+            }
+        }
+        let persistent = |t: Option<u32>| t.is_some_and(|t| counts[&t] >= min_points);
+        let mut points = Vec::new();
+        for o in &self.observed {
+            // Fold the short-lived peaks (and those without a track) into
+            // their neighbours: r[i] is the folded area of peak i.
+            let n = o.peaks.len();
+            let mut alive: Vec<usize> = (0..n).collect();
+            let mut r: Vec<f64> = o.peaks.iter().map(|p| p.area).collect();
+            let mut lo: Vec<f64> = o.peaks.iter().map(|p| p.valley_lo).collect();
+            let mut hi: Vec<f64> = o.peaks.iter().map(|p| p.valley_hi).collect();
+            while alive.len() > 1 {
+                let Some(k) = alive.iter().position(|&i| !persistent(o.peaks[i].track)) else {
+                    break;
+                };
+                if alive.iter().all(|&i| !persistent(o.peaks[i].track)) {
+                    break;
+                }
+                let i = alive[k];
+                let left = (k > 0).then(|| alive[k - 1]);
+                let right = alive.get(k + 1).copied();
+                let into_left = match (left, right) {
+                    (Some(_), Some(_)) => lo[i] >= hi[i],
+                    (Some(_), None) => true,
+                    _ => false,
+                };
+                if into_left {
+                    let j = left.expect("a left neighbour");
+                    r[j] += r[i];
+                    hi[j] = hi[i];
+                } else {
+                    let j = right.expect("a right neighbour");
+                    r[j] += r[i];
+                    lo[j] = lo[i];
+                }
+                r[i] = 0.0;
+                alive.remove(k);
+            }
+            for (i, p) in o.peaks.iter().enumerate() {
+                let Some(track) = p.track else { continue };
+                let keep = persistent(p.track);
+                points.push(TrackPoint {
+                    spectrum: o.spectrum,
+                    label: o.label,
+                    track,
+                    tau_s: p.tau_s,
+                    tau_mean_s: p.tau_mean_s,
+                    r_ohm: if keep { r[i] } else { p.area },
+                    gamma_ohm: p.height,
+                    persistent: keep,
+                    r_peak_ohm: p.area,
+                });
+            }
+        }
+        let mut short_tracks: Vec<u32> = counts
+            .iter()
+            .filter(|(_, c)| **c < min_points)
+            .map(|(t, _)| *t)
+            .collect();
+        short_tracks.sort_unstable();
+        TrackSet {
+            points,
+            short_tracks,
+            labelled: self.labels_complete && !self.observed.is_empty(),
+        }
+    }
+}
+
+/// The peak's mean time constant: `exp` of the mean of `ln tau` weighted
+/// by the distribution over a window centred on the peak, as wide as the
+/// peak's region allows on its narrower side (a symmetric window, so the
+/// truncation of the region by a neighbour does not pull the mean towards
+/// the neighbour), re-centred on the mean three times (mean shift:
+/// K. Fukunaga and L. Hostetler, IEEE Trans. Inf. Theory 21, 32-40, 1975).
+/// `None` when there is no mass in the window.
+fn log_mean_tau(drt: &Distribution, peak: &crate::peaks::Peak) -> Option<f64> {
+    let y_peak = peak.tau_s.ln();
+    let half = (y_peak - peak.tau_lo_s.ln())
+        .min(peak.tau_hi_s.ln() - y_peak)
+        .max(0.0);
+    let mut centre = y_peak;
+    for _ in 0..3 {
+        let (mut w, mut wy) = (0.0, 0.0);
+        for (t, g) in drt.tau_s.iter().zip(&drt.gamma) {
+            let y = t.ln();
+            if (y - centre).abs() <= half && *g > 0.0 {
+                w += g;
+                wy += g * y;
+            }
+        }
+        if w <= 0.0 {
+            return None;
+        }
+        centre = wy / w;
+    }
+    Some(centre.exp())
+}
+
+/// The distribution of `drt` at `tau_s` (nearest output sample).
+fn gamma_at(drt: &Distribution, tau_s: f64) -> f64 {
+    let n = drt.tau_s.len();
+    if n == 0 {
+        return 0.0;
+    }
+    let i = drt.tau_s.partition_point(|&t| t < tau_s).min(n - 1);
+    let i = if i > 0
+        && (drt.tau_s[i - 1].ln() - tau_s.ln()).abs() < (drt.tau_s[i].ln() - tau_s.ln()).abs()
+    {
+        i - 1
+    } else {
+        i
+    };
+    drt.gamma[i]
+}
+
+impl TrackSet {
+    /// The trend of every persistent track, by id. With `temperature`, the
+    /// labels are temperatures in that unit and each trend gets its
+    /// Arrhenius fits (fails for a label at or below absolute zero, or
+    /// without labels).
+    pub fn trends(&self, temperature: Option<TemperatureUnit>) -> Result<Vec<Trend>> {
+        if temperature.is_some() && !self.labelled {
+            return Err(Error::Config(
+                "an Arrhenius fit needs a temperature label for every spectrum".into(),
+            ));
+        }
+        let labelled = self.labelled;
+        let mut by_track: std::collections::BTreeMap<u32, Vec<&TrackPoint>> =
+            std::collections::BTreeMap::new();
+        for p in self.points.iter().filter(|p| p.persistent) {
+            by_track.entry(p.track).or_default().push(p);
+        }
+        let x_of = |p: &TrackPoint| match (labelled, p.label) {
+            (true, Some(l)) => l,
+            _ => p.spectrum as f64,
+        };
+        let mut out = Vec::new();
+        for (track, pts) in by_track {
+            let (first, last) = (pts[0], pts[pts.len() - 1]);
+            let x: Vec<f64> = pts.iter().map(|p| x_of(p)).collect();
+            let log_tau: Vec<f64> = pts.iter().map(|p| p.tau_mean_s.log10()).collect();
+            let r: Vec<f64> = pts.iter().map(|p| p.r_ohm).collect();
+            let (ea_tau, ea_r) = match temperature {
+                Some(unit) => {
+                    let t_k = x
+                        .iter()
+                        .map(|&l| unit.kelvin(l))
+                        .collect::<Result<Vec<f64>>>()?;
+                    let tau: Vec<f64> = pts.iter().map(|p| p.tau_mean_s).collect();
+                    (arrhenius(&t_k, &tau), arrhenius(&t_k, &r))
+                }
+                None => (None, None),
+            };
+            out.push(Trend {
+                track,
+                points: pts.len(),
+                first_spectrum: first.spectrum,
+                last_spectrum: last.spectrum,
+                first_x: x[0],
+                last_x: x[x.len() - 1],
+                tau_first_s: first.tau_mean_s,
+                tau_last_s: last.tau_mean_s,
+                r_first_ohm: first.r_ohm,
+                r_last_ohm: last.r_ohm,
+                tau_change_rel: last.tau_mean_s / first.tau_mean_s - 1.0,
+                r_change_rel: last.r_ohm / first.r_ohm - 1.0,
+                log10_tau_line: fit_line(&x, &log_tau),
+                r_line: fit_line(&x, &r),
+                ea_tau,
+                ea_r,
+            });
+        }
+        Ok(out)
+    }
+}
+
+/// Options of a whole series run.
+#[derive(Clone, Debug, PartialEq)]
+pub struct SeriesParams {
+    /// Inversion parameters of every spectrum (the grid ends are set to
+    /// the series' common grid unless given).
+    pub invert: InvertParams,
+    /// How lambda is chosen along the series.
+    pub lambda_policy: LambdaPolicy,
+    /// Peak linking.
+    pub link: LinkOptions,
+    /// Tracks with fewer points get no trend (a peak seen once or twice
+    /// is not a process to follow).
+    pub min_track_points: usize,
+    /// The labels are temperatures in this unit (Arrhenius fits).
+    pub temperature: Option<TemperatureUnit>,
+}
+
+impl Default for SeriesParams {
+    /// Default inversion, one lambda for the series (the better policy on
+    /// the synthetic series of docs/series.md), default linking, trends
+    /// from 3 points, no temperature.
+    fn default() -> Self {
+        Self {
+            invert: InvertParams::default(),
+            lambda_policy: LambdaPolicy::Series,
+            link: LinkOptions::default(),
+            min_track_points: 3,
+            temperature: None,
+        }
+    }
+}
+
+/// A series run on spectra in memory.
+#[derive(Debug)]
+pub struct SeriesResult {
+    /// The inversion of each spectrum (or why it failed), in series order.
+    pub inversions: Vec<Result<SpectrumInversion>>,
+    /// The series lambda ([`LambdaPolicy::Series`]), else `None`.
+    pub lambda: Option<f64>,
+    /// The tracks.
+    pub tracks: TrackSet,
+    /// Trends of the persistent tracks.
+    pub trends: Vec<Trend>,
+}
+
+/// Inverts, links and trends a series of spectra held in memory, with
+/// optional labels (`labels` empty, or one per spectrum).
+///
+/// ```
+/// use taumap::io::Spectrum;
+/// use taumap::series::{track_series, SeriesParams};
+/// use taumap::synth::{log_frequencies, Element, Series};
+///
+/// let f = log_frequencies(1e-1, 1e5, 10.0);
+/// let spectra: Vec<Spectrum> = (0..6)
+///     .map(|i| {
+///         let cell = Series(vec![
+///             Element::Resistor { r_ohm: 1.0 },
+///             Element::Voigt { r_ohm: 10.0, tau_s: 1e-4 },
+///             Element::Voigt { r_ohm: 20.0 + i as f64, tau_s: 1e-1 },
+///         ]);
+///         let (re, im) = cell.sample(&f);
+///         Spectrum::new(f.clone(), re, im).unwrap()
+///     })
+///     .collect();
+/// let run = track_series(&spectra, &[], &SeriesParams::default())?;
+/// assert_eq!(run.trends.len(), 2);
+/// assert!((run.trends[1].r_line.unwrap().slope - 1.0).abs() < 0.05);
+/// # Ok::<(), taumap::Error>(())
+/// ```
+pub fn track_series(
+    spectra: &[Spectrum],
+    labels: &[f64],
+    params: &SeriesParams,
+) -> Result<SeriesResult> {
+    if !labels.is_empty() && labels.len() != spectra.len() {
+        return Err(Error::Data(format!(
+            "{} spectra but {} labels",
+            spectra.len(),
+            labels.len()
+        )));
+    }
+    let (lo, hi) = frequency_span(spectra)
+        .ok_or_else(|| Error::Data("a series needs at least one spectrum".into()))?;
+    let mut batch = BatchInverter::new(&params.invert, lo, hi)?;
+    let refs: Vec<&Spectrum> = spectra.iter().collect();
+    let lambda = match params.lambda_policy {
+        LambdaPolicy::Each => None,
+        LambdaPolicy::Series => {
+            let pilot: Vec<&Spectrum> = pilot_positions(spectra.len())
+                .into_iter()
+                .map(|i| refs[i])
+                .collect();
+            let l = batch.pilot_lambda(&pilot)?;
+            batch = batch.with_fixed_lambda(l)?;
+            Some(l)
+        }
+    };
+    let inversions = batch.invert_all(&refs);
+    let mut tracker = Tracker::new(params.link)?;
+    for (i, inv) in inversions.iter().enumerate() {
+        if let Ok(inv) = inv {
+            tracker.push(i, labels.get(i).copied(), &inv.drt);
+        }
+    }
+    let tracks = tracker.finish(params.min_track_points);
+    let trends = tracks.trends(params.temperature)?;
+    Ok(SeriesResult {
+        inversions,
+        lambda,
+        tracks,
+        trends,
+    })
+}
+
+/// The lowest and highest frequency (Hz) over `spectra`, `None` when empty.
+pub fn frequency_span(spectra: &[Spectrum]) -> Option<(f64, f64)> {
+    spectra
+        .iter()
+        .filter(|s| !s.frequency_hz.is_empty())
+        .map(|s| (s.frequency_hz[0], s.frequency_hz[s.frequency_hz.len() - 1]))
+        .reduce(|a, b| (a.0.min(b.0), a.1.max(b.1)))
+}
