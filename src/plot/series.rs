@@ -12,11 +12,7 @@ use super::axis::{Axis, Extent, Scale};
 use super::common::{self, Chart, DrawResult, INK, Paint, Panel};
 use super::draw::{self, Key, Mark};
 use crate::Result;
-
-/// Boltzmann constant in eV/K: k_B = 1.380649e-23 J/K divided by the
-/// elementary charge 1.602176634e-19 C, both exact in the 2019 SI (CODATA
-/// 2018 gives 8.617333262e-5 eV/K).
-const K_B_EV_PER_K: f64 = 8.617333262e-5;
+use crate::series::K_B_EV_PER_K;
 
 /// One track (a process followed across the series) as drawn over the heat map.
 #[derive(Clone, Copy, Debug)]
@@ -40,8 +36,8 @@ pub struct HeatmapFigure<'a> {
     pub x_label: &'a str,
     /// tau samples (s), ascending, shared by every column.
     pub tau_s: &'a [f64],
-    /// gamma per column: gamma[c][k] at tau_s[k] (ohm); len == x.len(), each
-    /// inner len == tau_s.len().
+    /// gamma per column: `gamma[c][k]` at `tau_s[k]` (ohm); `len == x.len()`,
+    /// each inner `len == tau_s.len()`.
     pub gamma: &'a [Vec<f64>],
     /// Colour bar label with unit, e.g. "gamma (ohm)".
     pub gamma_label: &'a str,
@@ -855,6 +851,9 @@ fn ln_inverse(v: &[f64]) -> Vec<f64> {
         .collect()
 }
 
+/// A fitted line's end points (1000/T, ln) and its activation energy in eV.
+type FitLine = ([(f64, f64); 2], f64);
+
 /// One track in plot units.
 struct ArrheniusSeries {
     id: u32,
@@ -862,10 +861,10 @@ struct ArrheniusSeries {
     x: Vec<f64>,
     /// ln(1/τ) with τ in s, and its fitted line and Ea (eV).
     ln_rate: Vec<f64>,
-    rate_fit: Option<([(f64, f64); 2], f64)>,
+    rate_fit: Option<FitLine>,
     /// ln(1/R) with R in ohm, and its fitted line and Ea (eV).
     ln_conductance: Vec<f64>,
-    conductance_fit: Option<([(f64, f64); 2], f64)>,
+    conductance_fit: Option<FitLine>,
 }
 
 /// Range of the `xs` whose `ys` is finite.
@@ -953,7 +952,7 @@ impl<'a> ArrheniusPlot<'a> {
         area: &DrawingArea<DB, Shift>,
         (y, y_desc): (Axis, &str),
         bottom: bool,
-        pick: impl Fn(&ArrheniusSeries) -> (&[f64], Option<([(f64, f64); 2], f64)>),
+        pick: impl Fn(&ArrheniusSeries) -> (&[f64], Option<FitLine>),
     ) -> DrawResult<()> {
         let x_desc = bottom.then_some(INV_T_LABEL);
         let mut chart = common::build_panel(area, &stacked_panel(self.x, y, x_desc, y_desc))?;
@@ -1536,7 +1535,15 @@ mod tests {
 
     /// Four temperatures, 0 to 60 degC, a process with Ea = 0.6 eV in τ
     /// and 0.45 eV in R, and one with two points and no fit.
-    fn arrhenius_data() -> (Vec<f64>, Vec<f64>, Vec<f64>, (f64, f64), (f64, f64)) {
+    struct ArrheniusData {
+        inv_t: Vec<f64>,
+        tau: Vec<f64>,
+        r: Vec<f64>,
+        tau_fit: (f64, f64),
+        r_fit: (f64, f64),
+    }
+
+    fn arrhenius_data() -> ArrheniusData {
         let temps_k = [273.15, 293.15, 313.15, 333.15];
         let inv_t: Vec<f64> = temps_k.iter().map(|t| 1.0 / t).collect();
         let (ea_tau, a_tau) = (0.6, 28.0);
@@ -1549,12 +1556,24 @@ mod tests {
             .iter()
             .map(|it| (-(a_r - ea_r / K_B_EV_PER_K * it)).exp())
             .collect();
-        (inv_t, tau, r, (ea_tau, a_tau), (ea_r, a_r))
+        ArrheniusData {
+            inv_t,
+            tau,
+            r,
+            tau_fit: (ea_tau, a_tau),
+            r_fit: (ea_r, a_r),
+        }
     }
 
     #[test]
     fn arrhenius_renders_both_formats() {
-        let (inv_t, tau, r, tau_fit, r_fit) = arrhenius_data();
+        let ArrheniusData {
+            inv_t,
+            tau,
+            r,
+            tau_fit,
+            r_fit,
+        } = arrhenius_data();
         let tracks = [
             ArrheniusTrack {
                 id: 1,

@@ -1,12 +1,12 @@
 //! Output files of a series run (`taumap track`).
 //!
 //! Names and columns are a contract that scripts rely on:
-//! - `tracks.csv`: `spectrum,label,track,tau_s,r_ohm,gamma_ohm,persistent,r_peak_ohm,tau_mean_s`,
+//! - `tracks.csv`: `spectrum,label,track,tau_s,r_ohm,gamma_ohm,persistent,r_peak_ohm,tau_median_s`,
 //!   one row per linked peak in series order (`spectrum` is the 0-based
 //!   position in the series, `label` empty without labels; `persistent` 1
 //!   for a track followed along the series, 0 for a short-lived peak;
 //!   `r_ohm` the process's resistance with short-lived neighbours folded
-//!   in, `r_peak_ohm` the peak's own area, `tau_mean_s` the peak's mean
+//!   in, `r_peak_ohm` the peak's own area, `tau_median_s` the process's median
 //!   time constant, which the trends use);
 //! - `trends.csv`: one row per track with enough points, see
 //!   [`TRENDS_HEADER`];
@@ -26,7 +26,8 @@ use serde::Serialize;
 use std::fmt::Write as _;
 
 /// Header of `tracks.csv`.
-pub const TRACKS_HEADER: &str = "spectrum,label,track,tau_s,r_ohm,gamma_ohm,persistent,r_peak_ohm,tau_mean_s";
+pub const TRACKS_HEADER: &str =
+    "spectrum,label,track,tau_s,r_ohm,gamma_ohm,persistent,r_peak_ohm,tau_median_s";
 /// Header of `drt-series.csv`.
 pub const DRT_SERIES_HEADER: &str = "spectrum,label,tau_s,gamma_ohm";
 /// Header of `spectra.csv`.
@@ -59,7 +60,7 @@ pub fn tracks_csv(points: &[TrackPoint]) -> String {
             num(p.gamma_ohm),
             u8::from(p.persistent),
             num(p.r_peak_ohm),
-            num(p.tau_mean_s)
+            num(p.tau_median_s)
         );
     }
     s
@@ -192,9 +193,9 @@ pub struct TrackSummary {
     pub first_label: f64,
     /// Label of the last point.
     pub last_label: f64,
-    /// Mean tau of the first point (s).
+    /// Median tau of the first point (s).
     pub tau_first_s: f64,
-    /// Mean tau of the last point (s).
+    /// Median tau of the last point (s).
     pub tau_last_s: f64,
     /// R of the first point (ohm).
     pub r_first_ohm: f64,
@@ -204,7 +205,7 @@ pub struct TrackSummary {
     pub tau_change_rel: f64,
     /// `r_last / r_first - 1`.
     pub r_change_rel: f64,
-    /// Slope of log10(tau_mean/s) per label unit.
+    /// Slope of log10(tau_median/s) per label unit.
     pub log10_tau_slope: Option<f64>,
     /// Its standard error.
     pub log10_tau_slope_se: Option<f64>,

@@ -31,15 +31,19 @@ pub struct TrackPoint {
     pub spectrum: usize,
     /// The spectrum's label (cycle, state of charge, temperature), if any.
     pub label: Option<f64>,
-    /// Track id (from 1).
+    /// Track id: the persistent tracks 1, 2, ... in order of appearance
+    /// (by their first spectrum, then ascending tau), the short-lived ones
+    /// numbered after them.
     pub track: u32,
     /// Peak time constant (s): where the distribution is highest.
     pub tau_s: f64,
-    /// The peak's mean time constant (s): `exp` of the mean of `ln tau`
-    /// over the peak's region weighted by the distribution. For a
-    /// symmetric peak (ZARC, Voigt) it is the peak's tau; it scatters less
-    /// than the maximum on a broad, noisy peak, so the trends use it.
-    pub tau_mean_s: f64,
+    /// The process's median time constant (s): the tau that splits its
+    /// resistance in halves (the median of `ln tau` weighted by the
+    /// distribution over the peak's region and the regions of the
+    /// short-lived peaks folded into it). For a symmetric peak (ZARC,
+    /// Voigt) it is the peak's tau; unlike the maximum it does not move
+    /// when ripple reshapes the top of a broad peak, so the trends use it.
+    pub tau_median_s: f64,
     /// The process's resistance in this spectrum (ohm): its peak's area
     /// plus the areas of the short-lived peaks folded into it (see
     /// [`Tracker::finish`]).
@@ -69,9 +73,9 @@ pub struct Trend {
     pub first_x: f64,
     /// Trend axis value of the last point.
     pub last_x: f64,
-    /// Mean tau ([`TrackPoint::tau_mean_s`]) of the first point (s).
+    /// Median tau ([`TrackPoint::tau_median_s`]) of the first point (s).
     pub tau_first_s: f64,
-    /// Mean tau of the last point (s).
+    /// Median tau of the last point (s).
     pub tau_last_s: f64,
     /// R of the first point (ohm).
     pub r_first_ohm: f64,
@@ -81,7 +85,7 @@ pub struct Trend {
     pub tau_change_rel: f64,
     /// `r_last / r_first - 1`.
     pub r_change_rel: f64,
-    /// log10(tau_mean / s) against the trend axis.
+    /// log10(tau_median / s) against the trend axis.
     pub log10_tau_line: Option<LineFit>,
     /// R (ohm) against the trend axis.
     pub r_line: Option<LineFit>,
@@ -96,8 +100,10 @@ pub struct Trend {
 struct LinkedPeak {
     track: Option<u32>,
     tau_s: f64,
-    tau_mean_s: f64,
     area: f64,
+    /// The distribution over the peak's region: (ln tau, gamma) at the
+    /// output samples.
+    profile: Vec<(f64, f64)>,
     height: f64,
     /// The distribution at the lower and upper end of the peak's region
     /// (the separating minima, or the grid's ends).
@@ -165,7 +171,13 @@ impl Tracker {
             .map(|(p, track)| LinkedPeak {
                 track,
                 tau_s: p.tau_s,
-                tau_mean_s: log_mean_tau(drt, p).unwrap_or(p.tau_s),
+                profile: drt
+                    .tau_s
+                    .iter()
+                    .zip(&drt.gamma)
+                    .filter(|(t, _)| (p.tau_lo_s..=p.tau_hi_s).contains(*t))
+                    .map(|(t, g)| (t.ln(), g.max(0.0)))
+                    .collect(),
                 area: p.area,
                 height: p.height,
                 valley_lo: at(p.tau_lo_s),
@@ -204,6 +216,19 @@ impl Tracker {
             }
         }
         let persistent = |t: Option<u32>| t.is_some_and(|t| counts[&t] >= min_points);
+        // Final ids: the persistent tracks 1, 2, ... in order of their
+        // first peak (ascending tau within a spectrum), then the
+        // short-lived ones after them in the same order.
+        let mut raw: Vec<u32> = counts.keys().copied().collect();
+        raw.sort_unstable();
+        let (long, short): (Vec<u32>, Vec<u32>) =
+            raw.into_iter().partition(|t| counts[t] >= min_points);
+        let final_id: std::collections::HashMap<u32, u32> = long
+            .iter()
+            .chain(&short)
+            .enumerate()
+            .map(|(k, t)| (*t, k as u32 + 1))
+            .collect();
         let mut points = Vec::new();
         for o in &self.observed {
             // Fold the short-lived peaks (and those without a track) into
@@ -213,6 +238,8 @@ impl Tracker {
             let mut r: Vec<f64> = o.peaks.iter().map(|p| p.area).collect();
             let mut lo: Vec<f64> = o.peaks.iter().map(|p| p.valley_lo).collect();
             let mut hi: Vec<f64> = o.peaks.iter().map(|p| p.valley_hi).collect();
+            // The peaks whose regions each peak holds after folding.
+            let mut holds: Vec<Vec<usize>> = (0..n).map(|i| vec![i]).collect();
             while alive.len() > 1 {
                 let Some(k) = alive.iter().position(|&i| !persistent(o.peaks[i].track)) else {
                     break;
@@ -228,15 +255,18 @@ impl Tracker {
                     (Some(_), None) => true,
                     _ => false,
                 };
-                if into_left {
+                let j = if into_left {
                     let j = left.expect("a left neighbour");
-                    r[j] += r[i];
                     hi[j] = hi[i];
+                    j
                 } else {
                     let j = right.expect("a right neighbour");
-                    r[j] += r[i];
                     lo[j] = lo[i];
-                }
+                    j
+                };
+                r[j] += r[i];
+                let moved = std::mem::take(&mut holds[i]);
+                holds[j].extend(moved);
                 r[i] = 0.0;
                 alive.remove(k);
             }
@@ -246,9 +276,10 @@ impl Tracker {
                 points.push(TrackPoint {
                     spectrum: o.spectrum,
                     label: o.label,
-                    track,
+                    track: final_id[&track],
                     tau_s: p.tau_s,
-                    tau_mean_s: p.tau_mean_s,
+                    tau_median_s: median_tau(holds[i].iter().map(|&k| &o.peaks[k].profile))
+                        .unwrap_or(p.tau_s),
                     r_ohm: if keep { r[i] } else { p.area },
                     gamma_ohm: p.height,
                     persistent: keep,
@@ -256,12 +287,7 @@ impl Tracker {
                 });
             }
         }
-        let mut short_tracks: Vec<u32> = counts
-            .iter()
-            .filter(|(_, c)| **c < min_points)
-            .map(|(t, _)| *t)
-            .collect();
-        short_tracks.sort_unstable();
+        let short_tracks: Vec<u32> = short.iter().map(|t| final_id[t]).collect();
         TrackSet {
             points,
             short_tracks,
@@ -270,34 +296,33 @@ impl Tracker {
     }
 }
 
-/// The peak's mean time constant: `exp` of the mean of `ln tau` weighted
-/// by the distribution over a window centred on the peak, as wide as the
-/// peak's region allows on its narrower side (a symmetric window, so the
-/// truncation of the region by a neighbour does not pull the mean towards
-/// the neighbour), re-centred on the mean three times (mean shift:
-/// K. Fukunaga and L. Hostetler, IEEE Trans. Inf. Theory 21, 32-40, 1975).
-/// `None` when there is no mass in the window.
-fn log_mean_tau(drt: &Distribution, peak: &crate::peaks::Peak) -> Option<f64> {
-    let y_peak = peak.tau_s.ln();
-    let half = (y_peak - peak.tau_lo_s.ln())
-        .min(peak.tau_hi_s.ln() - y_peak)
-        .max(0.0);
-    let mut centre = y_peak;
-    for _ in 0..3 {
-        let (mut w, mut wy) = (0.0, 0.0);
-        for (t, g) in drt.tau_s.iter().zip(&drt.gamma) {
-            let y = t.ln();
-            if (y - centre).abs() <= half && *g > 0.0 {
-                w += g;
-                wy += g * y;
-            }
-        }
-        if w <= 0.0 {
-            return None;
-        }
-        centre = wy / w;
+/// The median time constant of the distribution over the given regions:
+/// `exp(y)` where the cumulative integral of gamma over `ln tau`
+/// (trapezoids within each region) reaches half its total, interpolated
+/// linearly. `None` without mass.
+fn median_tau<'a>(profiles: impl Iterator<Item = &'a Vec<(f64, f64)>>) -> Option<f64> {
+    let mut pts: Vec<(f64, f64)> = profiles.flatten().copied().collect();
+    pts.sort_by(|a, b| a.0.total_cmp(&b.0));
+    pts.dedup_by(|a, b| a.0 == b.0);
+    let cum: Vec<f64> = std::iter::once(0.0)
+        .chain(pts.windows(2).scan(0.0, |c, w| {
+            *c += 0.5 * (w[0].1 + w[1].1) * (w[1].0 - w[0].0);
+            Some(*c)
+        }))
+        .collect();
+    let total = *cum.last()?;
+    if !(total > 0.0) {
+        return None;
     }
-    Some(centre.exp())
+    let half = 0.5 * total;
+    let k = cum.partition_point(|&c| c < half).clamp(1, cum.len() - 1);
+    let (c0, c1) = (cum[k - 1], cum[k]);
+    let f = if c1 > c0 {
+        (half - c0) / (c1 - c0)
+    } else {
+        0.5
+    };
+    Some((pts[k - 1].0 + f * (pts[k].0 - pts[k - 1].0)).exp())
 }
 
 /// The distribution of `drt` at `tau_s` (nearest output sample).
@@ -342,7 +367,7 @@ impl TrackSet {
         for (track, pts) in by_track {
             let (first, last) = (pts[0], pts[pts.len() - 1]);
             let x: Vec<f64> = pts.iter().map(|p| x_of(p)).collect();
-            let log_tau: Vec<f64> = pts.iter().map(|p| p.tau_mean_s.log10()).collect();
+            let log_tau: Vec<f64> = pts.iter().map(|p| p.tau_median_s.log10()).collect();
             let r: Vec<f64> = pts.iter().map(|p| p.r_ohm).collect();
             let (ea_tau, ea_r) = match temperature {
                 Some(unit) => {
@@ -350,7 +375,7 @@ impl TrackSet {
                         .iter()
                         .map(|&l| unit.kelvin(l))
                         .collect::<Result<Vec<f64>>>()?;
-                    let tau: Vec<f64> = pts.iter().map(|p| p.tau_mean_s).collect();
+                    let tau: Vec<f64> = pts.iter().map(|p| p.tau_median_s).collect();
                     (arrhenius(&t_k, &tau), arrhenius(&t_k, &r))
                 }
                 None => (None, None),
@@ -362,11 +387,11 @@ impl TrackSet {
                 last_spectrum: last.spectrum,
                 first_x: x[0],
                 last_x: x[x.len() - 1],
-                tau_first_s: first.tau_mean_s,
-                tau_last_s: last.tau_mean_s,
+                tau_first_s: first.tau_median_s,
+                tau_last_s: last.tau_median_s,
                 r_first_ohm: first.r_ohm,
                 r_last_ohm: last.r_ohm,
-                tau_change_rel: last.tau_mean_s / first.tau_mean_s - 1.0,
+                tau_change_rel: last.tau_median_s / first.tau_median_s - 1.0,
                 r_change_rel: last.r_ohm / first.r_ohm - 1.0,
                 log10_tau_line: fit_line(&x, &log_tau),
                 r_line: fit_line(&x, &r),
