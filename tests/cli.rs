@@ -19,5 +19,7 @@ mod plots;
 mod readers;
 #[path = "cli/readme.rs"]
 mod readme;
+#[path = "cli/track.rs"]
+mod track;
 #[path = "cli/transient.rs"]
 mod transient;
