@@ -7,13 +7,20 @@
 //! finite-length gas-diffusion response, with 0.3 % proportional noise. The
 //! same cell is also pulse-tested: from rest at open circuit, a discharge
 //! current step of 0.1 A (0.1 A/cm2, small enough for a linear response) is
-//! applied at t = 0 and the voltage is logged on a logarithmic time base. All
-//! values are illustrative, not measurements.
+//! applied at t = 0 and the voltage is logged on a logarithmic time base.
+//! The series: the same cell through 20 thermal cycles (cooled to room
+//! temperature and heated back at a few kelvin per minute), measured at
+//! 700 C after each: the cathode arc grows and slows as its contact to the
+//! electrolyte degrades, the series resistance creeps up, the anode arc
+//! stays, and from cycle 10 a small slow arc of a cracked current-collector
+//! contact appears and grows. All values are illustrative, not
+//! measurements.
 
 use super::args::DemoArgs;
 use super::invert::{default_out_dir, invert_into, report_run};
 use super::transient::{self, transient_into};
 use anyhow::Result;
+use clap::Parser;
 use std::fmt::Write as _;
 use taumap::io::transient::read_transient;
 use taumap::io::write::write_atomic;
@@ -33,6 +40,46 @@ pub const PULSE_FILE: &str = "button-cell-700c-pulse.csv";
 /// Discharge step of the pulse test (A); negative: current out of the
 /// positive terminal.
 pub const PULSE_CURRENT_A: f64 = -0.1;
+
+/// Folder of the demo series (one file per thermal cycle).
+pub const SERIES_DIR: &str = "thermal-cycles";
+
+/// Thermal cycles in the demo series (files for cycles 0 to this).
+pub const SERIES_CYCLES: usize = 20;
+
+/// The demo cell after `cycle` thermal cycles (0 to [`SERIES_CYCLES`]).
+pub fn demo_cell_after(cycle: usize) -> Series {
+    let x = cycle as f64 / SERIES_CYCLES as f64;
+    let mut e = vec![
+        Element::Resistor {
+            r_ohm: 0.150 * (1.0 + 0.1 * x),
+        },
+        Element::Inductor { l_h: 8.0e-8 },
+        Element::Zarc {
+            r_ohm: 0.080,
+            tau_s: 2.0e-5,
+            phi: 0.85,
+        },
+        Element::Zarc {
+            r_ohm: 0.120 * (1.0 + 0.5 * x),
+            tau_s: 1.0e-3 * (1.0 + 0.6 * x),
+            phi: 0.95,
+        },
+        Element::WarburgFinite {
+            r_ohm: 0.050,
+            tau_s: 0.5,
+        },
+    ];
+    if cycle >= SERIES_CYCLES / 2 {
+        let y = (cycle - SERIES_CYCLES / 2) as f64 / (SERIES_CYCLES / 2) as f64;
+        e.push(Element::Zarc {
+            r_ohm: 0.012 + 0.028 * y,
+            tau_s: 0.015,
+            phi: 0.9,
+        });
+    }
+    Series(e)
+}
 
 /// Open-circuit voltage before the pulse (V).
 const OPEN_CIRCUIT_V: f64 = 1.05;
@@ -165,5 +212,52 @@ pub fn run(a: &DemoArgs) -> Result<()> {
     transient::report_run(&tsummary, &pulse_out, &twritten, false)?;
     println!("plots: {}", pulse_out.join("transient.png").display());
     println!("       {}", pulse_out.join("drt.png").display());
+
+    let series_dir = a.dir.join(SERIES_DIR);
+    std::fs::create_dir_all(&series_dir).map_err(|e| taumap::Error::Io {
+        path: series_dir.clone(),
+        source: e,
+    })?;
+    let f = log_frequencies(0.1, 1e5, 10.0);
+    for cycle in 0..=SERIES_CYCLES {
+        let (mut re, mut im) = demo_cell_after(cycle).sample(&f);
+        add_noise(&mut re, &mut im, 0.003, 3000 + cycle as u64);
+        let s = Spectrum::new(f.clone(), re, im)?;
+        let mut text = format!(
+            "# taumap demo: the button cell of {SPECTRUM_FILE} at 700 C after {cycle} thermal \
+             cycles; synthetic, 0.3 % noise, seed {}\n",
+            3000 + cycle
+        );
+        text.push_str(
+            spectrum_csv(&s)
+                .lines()
+                .skip(3)
+                .collect::<Vec<_>>()
+                .join("\n")
+                .as_str(),
+        );
+        text.push('\n');
+        write_atomic(
+            &series_dir.join(format!("cycle-{cycle:02}.csv")),
+            text.as_bytes(),
+        )?;
+    }
+    println!();
+    println!("demo series: {}", series_dir.display());
+    let dir = series_dir.to_string_lossy().into_owned();
+    let cli = super::args::Cli::try_parse_from([
+        "taumap",
+        "track",
+        dir.as_str(),
+        "--label-unit",
+        "cycle",
+    ])
+    .map_err(|e| anyhow::anyhow!("{e}"))?;
+    if let super::args::Command::Track(t) = cli.command {
+        super::track::run(&t)?;
+    }
+    let track_dir = series_dir.with_file_name(format!("{SERIES_DIR}-track"));
+    println!("plots: {}", track_dir.join("heatmap.png").display());
+    println!("       {}", track_dir.join("trends.png").display());
     Ok(())
 }

@@ -168,6 +168,35 @@ fn demo_command_writes_data_and_plots() {
             .join("demo-data/button-cell-700c-taumap/summary.json")
             .exists()
     );
+    // The thermal-cycling series: 21 files as shipped, and its tracks.
+    for k in 0..=20 {
+        let name = format!("demo-data/thermal-cycles/cycle-{k:02}.csv");
+        let written = std::fs::read_to_string(dir.path().join(&name)).unwrap();
+        let shipped = std::fs::read_to_string(repo_root().join(&name)).unwrap();
+        assert_eq!(written, shipped, "{name} matches the generator");
+    }
+    let track = dir.path().join("demo-data/thermal-cycles-track");
+    assert!(track.join("heatmap.png").exists());
+    let s: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(track.join("summary.json")).unwrap())
+            .unwrap();
+    assert_eq!(s["inverted"], 21);
+    // The cathode (1 ms, 0.120 ohm) grows 50 % in R and 60 % in tau over
+    // the 20 cycles (the generator's truth).
+    let cathode = s["tracks"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|t| (t["tau_first_s"].as_f64().unwrap().log10() + 3.0).abs() < 0.1)
+        .expect("a track starts at the cathode's 1 ms");
+    assert!(
+        (cathode["r_change_rel"].as_f64().unwrap() - 0.5).abs() < 0.05,
+        "{cathode}"
+    );
+    assert!(
+        (cathode["tau_change_rel"].as_f64().unwrap() - 0.6).abs() < 0.1,
+        "{cathode}"
+    );
 }
 
 /// `--no-cv-curve` leaves out the re-im cross-validation curve (two lambda
