@@ -311,7 +311,7 @@ fn median_tau<'a>(profiles: impl Iterator<Item = &'a Vec<(f64, f64)>>) -> Option
         }))
         .collect();
     let total = *cum.last()?;
-    if !(total > 0.0) {
+    if total.is_nan() || total <= 0.0 {
         return None;
     }
     let half = 0.5 * total;
