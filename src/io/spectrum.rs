@@ -365,22 +365,7 @@ pub fn parse_spectrum_with<R: BufRead>(
     path: &Path,
     map: &ColumnMap,
 ) -> Result<(Spectrum, SpectrumLayout)> {
-    map.check_roles(ROLES)?;
-    let found = TableReader::find_header(reader, path, CANONICAL_HEADER, |head| {
-        names_a_spectrum(head, map)
-    })?;
-    let mut table = match found {
-        Ok(table) => table,
-        Err(no) => {
-            // One line examined: explain what that line lacks; several: the
-            // file has free text but no recognisable header.
-            if no.single_candidate() {
-                choose_columns(&no.first, map)?;
-            }
-            return Err(no.error("frequency and impedance columns", CANONICAL_HEADER));
-        }
-    };
-    let choice = choose_columns(&table, map)?;
+    let (mut table, choice) = open_spectrum_table(reader, path, map)?;
     let mut points = Vec::new();
     while let Some(row) = table.next_row()? {
         if points.len() == MAX_POINTS {
@@ -397,6 +382,32 @@ pub fn parse_spectrum_with<R: BufRead>(
     let (points, imag_mostly_positive) = finish_points(points, &table, path, &choice)?;
     let layout = layout_of(&table, &choice, imag_mostly_positive, table.encoding());
     Ok((Spectrum::from_sorted(&points), layout))
+}
+
+/// Finds the header of a spectrum table and the columns that hold the
+/// spectrum.
+fn open_spectrum_table<R: BufRead>(
+    reader: R,
+    path: &Path,
+    map: &ColumnMap,
+) -> Result<(TableReader<R>, Choice)> {
+    map.check_roles(ROLES)?;
+    let found = TableReader::find_header(reader, path, CANONICAL_HEADER, |head| {
+        names_a_spectrum(head, map)
+    })?;
+    let table = match found {
+        Ok(table) => table,
+        Err(no) => {
+            // One line examined: explain what that line lacks; several: the
+            // file has free text but no recognisable header.
+            if no.single_candidate() {
+                choose_columns(&no.first, map)?;
+            }
+            return Err(no.error("frequency and impedance columns", CANONICAL_HEADER));
+        }
+    };
+    let choice = choose_columns(&table, map)?;
+    Ok((table, choice))
 }
 
 /// How `table` was read with `choice`.
@@ -766,20 +777,7 @@ pub fn parse_spectrum_series<R: BufRead>(
     map: &ColumnMap,
     by: &str,
 ) -> Result<(Vec<SeriesEntry>, SpectrumLayout)> {
-    map.check_roles(ROLES)?;
-    let found = TableReader::find_header(reader, path, CANONICAL_HEADER, |head| {
-        names_a_spectrum(head, map)
-    })?;
-    let mut table = match found {
-        Ok(table) => table,
-        Err(no) => {
-            if no.single_candidate() {
-                choose_columns(&no.first, map)?;
-            }
-            return Err(no.error("frequency and impedance columns", CANONICAL_HEADER));
-        }
-    };
-    let choice = choose_columns(&table, map)?;
+    let (mut table, choice) = open_spectrum_table(reader, path, map)?;
     let by_col = series_column(&table, by)?;
     if choice.columns.contains(&by_col) {
         return Err(table.error(
