@@ -1553,4 +1553,71 @@ mod tests {
             prop_assert_eq!(a, b);
         }
     }
+
+    #[test]
+    fn a_series_file_splits_by_its_naming_column() {
+        let mut text = String::from("# two cells\nsoc;f/kHz;Z'/ohm;Z''/ohm\n");
+        for k in 0..6 {
+            let f = 0.01 * 10f64.powi(k);
+            // Interleaved rows of two spectra; the second has a bad value.
+            text.push_str(&format!("0,5;{f};{};-1\n", 2.0 + k as f64));
+            let bad = if k == 3 {
+                "x".to_string()
+            } else {
+                format!("{}", 3.0 + k as f64)
+            };
+            text.push_str(&format!("1;{f};{bad};-2\n"));
+        }
+        let (entries, layout) = parse_spectrum_series(
+            text.as_bytes(),
+            Path::new("soc.csv"),
+            &ColumnMap::default(),
+            "SOC",
+        )
+        .unwrap();
+        assert_eq!(layout.factors[0], 1e3);
+        assert_eq!(entries.len(), 2);
+        assert_eq!(
+            (entries[0].key.as_str(), entries[0].label),
+            ("0,5", Some(0.5))
+        );
+        assert_eq!(entries[0].first_line, 3);
+        let s = entries[0].spectrum.as_ref().unwrap();
+        assert_eq!(s.len(), 6);
+        assert_eq!(s.frequency_hz[0], 10.0);
+        assert_eq!(s.z_re_ohm[5], 7.0);
+        let e = entries[1].spectrum.as_ref().unwrap_err().to_string();
+        assert!(e.starts_with("soc.csv:10:"), "{e}");
+        // By number; a missing column; an empty name.
+        let (by_number, _) = parse_spectrum_series(
+            text.as_bytes(),
+            Path::new("s.csv"),
+            &ColumnMap::default(),
+            "#1",
+        )
+        .unwrap();
+        assert_eq!(by_number.len(), 2);
+        let e = parse_spectrum_series(
+            text.as_bytes(),
+            Path::new("s.csv"),
+            &ColumnMap::default(),
+            "cycle",
+        )
+        .unwrap_err()
+        .to_string();
+        assert!(e.starts_with("s.csv:2: no column \"cycle\""), "{e}");
+        let empty = "cycle,frequency_hz,z_re_ohm,z_im_ohm\n,1,2,3\n";
+        let e = parse_spectrum_series(
+            empty.as_bytes(),
+            Path::new("e.csv"),
+            &ColumnMap::default(),
+            "cycle",
+        )
+        .unwrap_err()
+        .to_string();
+        assert!(
+            e.starts_with("e.csv:2:") && e.contains("every row must name"),
+            "{e}"
+        );
+    }
 }
