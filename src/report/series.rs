@@ -1,13 +1,14 @@
 //! Output files of a series run (`taumap track`).
 //!
 //! Names and columns are a contract that scripts rely on:
-//! - `tracks.csv`: `spectrum,label,track,tau_s,r_ohm,gamma_ohm,persistent,r_peak_ohm,tau_median_s`,
+//! - `tracks.csv`: `spectrum,label,track,tau_s,r_ohm,gamma_ohm,persistent,r_peak_ohm,tau_median_s,confidence`,
 //!   one row per linked peak in series order (`spectrum` is the 0-based
 //!   position in the series, `label` empty without labels; `persistent` 1
 //!   for a track followed along the series, 0 for a short-lived peak;
 //!   `r_ohm` the process's resistance with short-lived neighbours folded
 //!   in, `r_peak_ohm` the peak's own area, `tau_median_s` the process's median
-//!   time constant, which the trends use);
+//!   time constant, which the trends use; `confidence` empty without
+//!   bands);
 //! - `trends.csv`: one row per track with enough points, see
 //!   [`TRENDS_HEADER`];
 //! - `drt-series.csv`: `spectrum,label,tau_s,gamma_ohm`, the distribution
@@ -27,7 +28,7 @@ use std::fmt::Write as _;
 
 /// Header of `tracks.csv`.
 pub const TRACKS_HEADER: &str =
-    "spectrum,label,track,tau_s,r_ohm,gamma_ohm,persistent,r_peak_ohm,tau_median_s";
+    "spectrum,label,track,tau_s,r_ohm,gamma_ohm,persistent,r_peak_ohm,tau_median_s,confidence";
 /// Header of `drt-series.csv`.
 pub const DRT_SERIES_HEADER: &str = "spectrum,label,tau_s,gamma_ohm";
 /// Header of `spectra.csv`.
@@ -51,7 +52,7 @@ pub fn tracks_csv(points: &[TrackPoint]) -> String {
     for p in points {
         let _ = writeln!(
             s,
-            "{},{},{},{},{},{},{},{},{}",
+            "{},{},{},{},{},{},{},{},{},{}",
             p.spectrum,
             opt(p.label),
             p.track,
@@ -60,7 +61,8 @@ pub fn tracks_csv(points: &[TrackPoint]) -> String {
             num(p.gamma_ohm),
             u8::from(p.persistent),
             num(p.r_peak_ohm),
-            num(p.tau_median_s)
+            num(p.tau_median_s),
+            opt(p.confidence)
         );
     }
     s

@@ -55,6 +55,10 @@ pub struct TrackPoint {
     pub persistent: bool,
     /// The area of this peak alone (ohm), before folding.
     pub r_peak_ohm: f64,
+    /// The peak's confidence (the fraction of posterior draws with a peak
+    /// in its region) when the distribution has bands; peaks below the
+    /// bands' support level are never linked.
+    pub confidence: Option<f64>,
 }
 
 /// The trend of one track.
@@ -99,6 +103,7 @@ pub struct Trend {
 #[derive(Clone, Debug)]
 struct LinkedPeak {
     track: Option<u32>,
+    confidence: Option<f64>,
     tau_s: f64,
     area: f64,
     /// The distribution over the peak's region: (ln tau, gamma) at the
@@ -154,12 +159,28 @@ impl Tracker {
     /// pushed).
     pub fn push(&mut self, spectrum: usize, label: Option<f64>, drt: &Distribution) {
         self.labels_complete &= label.is_some();
+        // With bands, a peak below the support level is not offered to
+        // the linker: it starts no track and is folded into a neighbour.
+        let confidence: Vec<Option<f64>> = (0..drt.peaks.len())
+            .map(|i| {
+                drt.bands
+                    .as_ref()
+                    .and_then(|b| b.peaks.get(i))
+                    .map(|pb| pb.confidence)
+            })
+            .collect();
+        let support = drt.bands.as_ref().map_or(0.0, |b| b.support);
         let offered: Vec<PeakPoint> = drt
             .peaks
             .iter()
-            .map(|p| PeakPoint {
+            .zip(&confidence)
+            .map(|(p, c)| PeakPoint {
                 tau_s: p.tau_s,
-                r_ohm: p.area,
+                r_ohm: if c.is_some_and(|c| c < support) {
+                    f64::NAN
+                } else {
+                    p.area
+                },
             })
             .collect();
         let ids = self.linker.push(spectrum, &offered);
@@ -168,8 +189,10 @@ impl Tracker {
             .peaks
             .iter()
             .zip(ids)
-            .map(|(p, track)| LinkedPeak {
+            .zip(confidence)
+            .map(|((p, track), confidence)| LinkedPeak {
                 track,
+                confidence,
                 tau_s: p.tau_s,
                 profile: drt
                     .tau_s
@@ -284,6 +307,7 @@ impl Tracker {
                     gamma_ohm: p.height,
                     persistent: keep,
                     r_peak_ohm: p.area,
+                    confidence: p.confidence,
                 });
             }
         }
