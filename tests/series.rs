@@ -269,3 +269,35 @@ fn both_lambda_policies_run_and_the_series_one_uses_one_lambda() {
         .collect();
     assert!(distinct.len() > 1, "the rule chose per spectrum");
 }
+
+/// Folding: in every spectrum the persistent tracks' resistances add up to
+/// the areas of all its peaks, and a short-lived peak (here a ripple in the
+/// valley between two ZARCs at low noise) gives its area to a neighbour.
+#[test]
+fn short_lived_peaks_are_folded_into_their_neighbours() {
+    let (spectra, labels) = ageing(zarc, 1e-3);
+    let run = track_series(&spectra, &labels, &SeriesParams::default()).unwrap();
+    let short = run.tracks.points.iter().filter(|p| !p.persistent).count();
+    assert!(
+        short > 0,
+        "the series has a ripple to fold\n{}",
+        describe(&run)
+    );
+    for k in 0..spectra.len() {
+        let pts: Vec<_> = run
+            .tracks
+            .points
+            .iter()
+            .filter(|p| p.spectrum == k)
+            .collect();
+        let all: f64 = pts.iter().map(|p| p.r_peak_ohm).sum();
+        let kept: f64 = pts.iter().filter(|p| p.persistent).map(|p| p.r_ohm).sum();
+        assert!(
+            (all - kept).abs() < 1e-9 * all,
+            "spectrum {k}: {all} vs {kept}"
+        );
+        for p in pts.iter().filter(|p| p.persistent) {
+            assert!(p.r_ohm >= p.r_peak_ohm);
+        }
+    }
+}

@@ -434,9 +434,10 @@ pub struct TrackArgs {
     /// its track.
     #[arg(long, value_name = "N", default_value_t = 2)]
     pub max_gap: usize,
-    /// Tracks with fewer peaks get no trend (listed as short tracks).
-    #[arg(long, value_name = "N", default_value_t = 3)]
-    pub min_track_points: usize,
+    /// Tracks with fewer peaks are short-lived: no trend, their area folded
+    /// into a neighbour [default: 3, or 5 % of the spectra when more].
+    #[arg(long, value_name = "N")]
+    pub min_track_points: Option<usize>,
     /// Series terms of the model.
     #[command(flatten)]
     pub series_terms: SeriesTermArgs,

@@ -202,6 +202,20 @@ fn last_number(path: &Path) -> Option<f64> {
     })
 }
 
+/// Whether the last number of a file's stem follows a '-' directly
+/// (`T-20C.csv`): the label then lost a sign, if it was one.
+fn dash_before_last_number(name: &str) -> bool {
+    let stem = Path::new(name)
+        .file_stem()
+        .map(|s| s.to_string_lossy().into_owned())
+        .unwrap_or_default();
+    let parts = name_parts(&stem);
+    match parts.iter().rposition(|p| matches!(p, NamePart::Number(_))) {
+        Some(k) if k > 0 => matches!(&parts[k - 1], NamePart::Text(t) if t.ends_with('-')),
+        _ => false,
+    }
+}
+
 /// File extensions taken from a folder.
 const SPECTRUM_EXTENSIONS: [&str; 4] = ["csv", "txt", "tsv", "dat"];
 
@@ -287,7 +301,20 @@ fn gather(a: &TrackArgs) -> Result<Series> {
             }
             Some(LabelFrom::Column) => Some(LabelFrom::Column),
             Some(LabelFrom::None) => None,
-            None => numeric.then_some(LabelFrom::Column),
+            None => {
+                if let Some(e) = entries.iter().find(|e| e.label.is_none())
+                    && temperature_unit(a.label_unit.as_deref()).is_none()
+                {
+                    eprintln!(
+                        "note: {}:{}: the --by value \"{}\" is not a number: no labels, the \
+                         trends run against the spectrum position",
+                        path.display(),
+                        e.first_line,
+                        e.key
+                    );
+                }
+                numeric.then_some(LabelFrom::Column)
+            }
         };
         let inputs = entries
             .iter()
@@ -315,7 +342,10 @@ fn gather(a: &TrackArgs) -> Result<Series> {
     let label_from = match a.label_from {
         Some(LabelFrom::Column) => bail!("--label-from column needs --series FILE --by COLUMN"),
         Some(LabelFrom::Name) => {
-            if let Some(i) = numbers.iter().position(Option::is_none) {
+            // (With temperature labels, the missing label is an error.)
+            if let Some(i) = numbers.iter().position(Option::is_none)
+                && temperature_unit(a.label_unit.as_deref()).is_none()
+            {
                 bail!(
                     "{}: --label-from name: the file name holds no number",
                     files[i].display()
@@ -324,10 +354,22 @@ fn gather(a: &TrackArgs) -> Result<Series> {
             Some(LabelFrom::Name)
         }
         Some(LabelFrom::None) => None,
-        None => numbers
-            .iter()
-            .all(Option::is_some)
-            .then_some(LabelFrom::Name),
+        None => {
+            // (With temperature labels, the missing label is an error.)
+            if let Some(i) = numbers.iter().position(Option::is_none)
+                && temperature_unit(a.label_unit.as_deref()).is_none()
+            {
+                eprintln!(
+                    "note: {}: the file name holds no number: no labels, the trends run against \
+                     the spectrum position",
+                    files[i].display()
+                );
+            }
+            numbers
+                .iter()
+                .all(Option::is_some)
+                .then_some(LabelFrom::Name)
+        }
     };
     let inputs = files
         .into_iter()
@@ -380,6 +422,36 @@ fn default_out(a: &TrackArgs) -> PathBuf {
         .parent()
         .unwrap_or_else(|| Path::new("."))
         .join(format!("{name}-track"))
+}
+
+/// Refuses an output folder that holds inputs: the run would read its own
+/// earlier outputs as spectra, and replace or remove inputs whose names
+/// are output names (`fit.csv`, `tracks.csv`).
+fn refuse_input_folder(a: &TrackArgs, out: &Path) -> Result<()> {
+    let Ok(out_abs) = std::fs::canonicalize(out) else {
+        return Ok(()); // Not there yet: it holds nothing.
+    };
+    let folders = a.inputs.iter().chain(&a.series).filter_map(|p| {
+        let folder = if p.is_dir() {
+            p.clone()
+        } else {
+            match p.parent() {
+                Some(q) if !q.as_os_str().is_empty() => q.to_path_buf(),
+                _ => PathBuf::from("."),
+            }
+        };
+        std::fs::canonicalize(folder).ok()
+    });
+    for f in folders {
+        if f == out_abs {
+            bail!(
+                "{}: the output folder holds the series' own files (outputs would be read as \
+                 spectra, and inputs named like outputs replaced); choose another --out",
+                out.display()
+            );
+        }
+    }
+    Ok(())
 }
 
 /// The heat map, accumulated column by column as the spectra come.
@@ -463,6 +535,7 @@ pub fn run(a: &TrackArgs) -> Result<()> {
         Some(dir) => dir.clone(),
         None => default_out(a),
     };
+    refuse_input_folder(a, &out)?;
     let mut series = gather(a)?;
     let n = series.inputs.len();
     let labelled = series.inputs.iter().all(|i| i.label.is_some());
@@ -473,12 +546,29 @@ pub fn run(a: &TrackArgs) -> Result<()> {
             a.label_unit.as_deref().unwrap_or_default()
         );
     }
+    let mut early_warnings = Vec::new();
     if let Some(t) = temperature {
         for i in &series.inputs {
             if let Some(l) = i.label {
                 t.kelvin(l)
                     .map_err(|e| anyhow::anyhow!("{}: {e}", i.name))?;
             }
+        }
+        if series.label_from == Some(LabelFrom::Name)
+            && let Some(i) = series
+                .inputs
+                .iter()
+                .find(|i| dash_before_last_number(&i.name))
+        {
+            let w = format!(
+                "{}: a '-' before the number in a file name is read as a separator, not a \
+                 sign (label {}): name temperatures below zero otherwise, or give them in a \
+                 --series file",
+                i.name,
+                i.label.unwrap_or(f64::NAN)
+            );
+            eprintln!("warning: {w}");
+            early_warnings.push(w);
         }
     }
     // The heat map's x: the label when it rises along the series, else
@@ -645,9 +735,18 @@ pub fn run(a: &TrackArgs) -> Result<()> {
         );
     }
 
-    let tracks = tracker.finish(a.min_track_points);
+    let inverted = n - skipped.len();
+    let min_points = effective_min_points(a.min_track_points, inverted);
+    let tracks = tracker.finish(min_points);
     let trends = tracks.trends(temperature)?;
-    let mut warnings = Vec::new();
+    let mut warnings = early_warnings;
+    if min_points < a.min_track_points.unwrap_or(0) {
+        let w = format!(
+            "{inverted} spectra inverted, fewer than --min-track-points: tracks need only {min_points}"
+        );
+        eprintln!("note: {w}");
+        warnings.push(w);
+    }
     if !skipped.is_empty() {
         warnings.push(format!(
             "{} of {n} spectra skipped (see skipped)",
@@ -709,7 +808,7 @@ pub fn run(a: &TrackArgs) -> Result<()> {
         linked_peaks: tracks.points.len(),
         warnings,
         link,
-        min_track_points: a.min_track_points,
+        min_track_points: min_points,
     };
 
     let mut set = output_set(&out);
@@ -766,6 +865,15 @@ pub fn run(a: &TrackArgs) -> Result<()> {
     }
 }
 
+/// The fewest points of a persistent track: `--min-track-points`, by
+/// default 3 or 5 % of the spectra inverted, whichever is more (a ripple
+/// that recurs now and then in a long series reaches any fixed count);
+/// never more than the spectra inverted.
+fn effective_min_points(given: Option<usize>, inverted: usize) -> usize {
+    let want = given.unwrap_or_else(|| 3.max(inverted.div_ceil(20)));
+    want.clamp(1, inverted.max(1))
+}
+
 /// `track 2: tau 1.00e-3 -> 2.00e-3 s (+100.0 %), r 10.000000 -> 13.000000
 /// ohm (+30.0 %), Ea(tau) 0.600 +- 0.004 eV`.
 fn trend_line(t: &Trend) -> String {
@@ -818,7 +926,9 @@ fn add_plots(
     };
     let shown: Vec<u32> = trends.iter().map(|t| t.track).collect();
     // Per track: x on the heat map, x on the trend axis, tau, r.
-    type Columns = (Vec<f64>, Vec<f64>, Vec<f64>, Vec<f64>);
+    // Per track: x on the heat map, x on the trend axis, the peak's tau
+    // (heat map), R, and the median tau of the trends.
+    type Columns = (Vec<f64>, Vec<f64>, Vec<f64>, Vec<f64>, Vec<f64>);
     let mut per: std::collections::BTreeMap<u32, Columns> = std::collections::BTreeMap::new();
     for p in &tracks.points {
         if !shown.contains(&p.track) {
@@ -833,6 +943,7 @@ fn add_plots(
         e.1.push(p.label.unwrap_or(p.spectrum as f64));
         e.2.push(p.tau_s);
         e.3.push(p.r_ohm);
+        e.4.push(p.tau_median_s);
     }
     let (hx, gamma) = heat.columns();
     let lines: Vec<plot::TrackLine> = per
@@ -848,7 +959,7 @@ fn add_plots(
         .map(|(id, c)| plot::TrackSeries {
             id: *id,
             x: &c.1,
-            tau_s: &c.2,
+            tau_s: &c.4,
             r_ohm: &c.3,
         })
         .collect();
@@ -874,7 +985,7 @@ fn add_plots(
             plot::ArrheniusTrack {
                 id: *id,
                 inv_t_per_k: x,
-                tau_s: &c.2,
+                tau_s: &c.4,
                 r_ohm: &c.3,
                 tau_fit: t.and_then(|t| t.ea_tau).map(|e| (e.ea_ev, e.intercept)),
                 r_fit: t.and_then(|t| t.ea_r).map(|e| (e.ea_ev, e.intercept)),

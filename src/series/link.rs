@@ -17,9 +17,11 @@
 //!        + 0.05\,(\text{spectra missed}) $$
 //!
 //! with the gate half-widths `g_tau` (decades) and `g_R` (a factor). A pair
-//! with `d^2 > 1` is outside the gate and never linked. Every open track
-//! may also stay unassigned at cost 1 (the gate), so a pair is linked only
-//! when that is cheaper than ending one track and starting another. A track
+//! whose distance without the missed-spectra term exceeds 1 is outside the
+//! gate and never linked. Every open track may also stay unassigned at
+//! cost 1 (the gate), so a pair is linked only when its whole cost,
+//! missed spectra included, is below that: the gate narrows by 0.05 (in
+//! `d^2`) for each spectrum the track missed. A track
 //! stays open for `max_gap` spectra without a peak (a process below
 //! detection for a spectrum or two keeps its id); a peak no track takes
 //! starts a new track. Ids count from 1 in order of creation (ascending tau

@@ -8,9 +8,9 @@
 //! - [`trend`]: least-squares slopes with standard errors and Arrhenius
 //!   activation energies.
 //!
-//! [`Tracker`] holds what linking and the trends need (one small record per
-//! linked peak), so a caller can stream each spectrum's distribution to
-//! disk and drop it. [`track_series`] runs all of it on spectra in memory.
+//! [`Tracker`] holds what linking and the trends need (per linked peak a
+//! small record and a coarse profile of its region, a few dozen numbers),
+//! so a caller can stream each spectrum's distribution to disk and drop it. [`track_series`] runs all of it on spectra in memory.
 
 pub mod batch;
 pub mod link;
@@ -106,9 +106,9 @@ struct LinkedPeak {
     confidence: Option<f64>,
     tau_s: f64,
     area: f64,
-    /// The distribution over the peak's region: (ln tau, gamma) at the
-    /// output samples.
-    profile: Vec<(f64, f64)>,
+    /// The distribution over the peak's region: (ln tau, gamma) at
+    /// [`PROFILE_PER_DECADE`] points per decade.
+    profile: Vec<(f32, f32)>,
     height: f64,
     /// The distribution at the lower and upper end of the peak's region
     /// (the separating minima, or the grid's ends).
@@ -123,8 +123,8 @@ struct Observed {
     peaks: Vec<LinkedPeak>,
 }
 
-/// Linking state and the linked peaks of a series: a few numbers per peak,
-/// whatever the size of the distributions.
+/// Linking state and the linked peaks of a series: a few dozen numbers per
+/// peak ([`PROFILE_PER_DECADE`]), whatever the size of the distributions.
 #[derive(Clone, Debug)]
 pub struct Tracker {
     linker: Linker,
@@ -194,13 +194,7 @@ impl Tracker {
                 track,
                 confidence,
                 tau_s: p.tau_s,
-                profile: drt
-                    .tau_s
-                    .iter()
-                    .zip(&drt.gamma)
-                    .filter(|(t, _)| (p.tau_lo_s..=p.tau_hi_s).contains(*t))
-                    .map(|(t, g)| (t.ln(), g.max(0.0)))
-                    .collect(),
+                profile: profile(drt, p.tau_lo_s, p.tau_hi_s),
                 area: p.area,
                 height: p.height,
                 valley_lo: at(p.tau_lo_s),
@@ -320,12 +314,48 @@ impl Tracker {
     }
 }
 
+/// Points per decade of the profile a peak keeps for its median: as fine
+/// as the default grid, so a series' memory grows by a few dozen numbers
+/// per peak (about 0.5 kB per spectrum), not by whole distributions.
+pub const PROFILE_PER_DECADE: f64 = 10.0;
+
+/// The distribution of `drt` over `[tau_lo_s, tau_hi_s]` at about
+/// [`PROFILE_PER_DECADE`] points per decade (every k-th output sample, the
+/// region's last sample included).
+fn profile(drt: &Distribution, tau_lo_s: f64, tau_hi_s: f64) -> Vec<(f32, f32)> {
+    let idx: Vec<usize> = (0..drt.tau_s.len())
+        .filter(|&i| (tau_lo_s..=tau_hi_s).contains(&drt.tau_s[i]))
+        .collect();
+    let (Some(&first), Some(&last)) = (idx.first(), idx.last()) else {
+        return Vec::new();
+    };
+    let n = drt.tau_s.len();
+    let dy = if n > 1 {
+        (drt.tau_s[n - 1] / drt.tau_s[0]).ln() / (n - 1) as f64
+    } else {
+        1.0
+    };
+    let stride = ((std::f64::consts::LN_10 / PROFILE_PER_DECADE) / dy)
+        .floor()
+        .max(1.0) as usize;
+    let mut keep: Vec<usize> = (first..=last).step_by(stride).collect();
+    if keep.last() != Some(&last) {
+        keep.push(last);
+    }
+    keep.iter()
+        .map(|&i| (drt.tau_s[i].ln() as f32, drt.gamma[i].max(0.0) as f32))
+        .collect()
+}
+
 /// The median time constant of the distribution over the given regions:
 /// `exp(y)` where the cumulative integral of gamma over `ln tau`
 /// (trapezoids within each region) reaches half its total, interpolated
 /// linearly. `None` without mass.
-fn median_tau<'a>(profiles: impl Iterator<Item = &'a Vec<(f64, f64)>>) -> Option<f64> {
-    let mut pts: Vec<(f64, f64)> = profiles.flatten().copied().collect();
+fn median_tau<'a>(profiles: impl Iterator<Item = &'a Vec<(f32, f32)>>) -> Option<f64> {
+    let mut pts: Vec<(f64, f64)> = profiles
+        .flatten()
+        .map(|&(y, g)| (f64::from(y), f64::from(g)))
+        .collect();
     pts.sort_by(|a, b| a.0.total_cmp(&b.0));
     pts.dedup_by(|a, b| a.0 == b.0);
     let cum: Vec<f64> = std::iter::once(0.0)
@@ -549,4 +579,33 @@ pub fn frequency_span(spectra: &[Spectrum]) -> Option<(f64, f64)> {
         .filter(|s| !s.frequency_hz.is_empty())
         .map(|s| (s.frequency_hz[0], s.frequency_hz[s.frequency_hz.len() - 1]))
         .reduce(|a, b| (a.0.min(b.0), a.1.max(b.1)))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn the_median_splits_the_area_in_halves() {
+        // A symmetric triangle on [0, 2] in ln tau: median at 1.
+        let tri: Vec<(f32, f32)> = (0..=20)
+            .map(|i| {
+                let y = i as f32 * 0.1;
+                (y, 1.0 - (y - 1.0).abs())
+            })
+            .collect();
+        let m = median_tau(std::iter::once(&tri)).unwrap();
+        assert!((m.ln() - 1.0).abs() < 1e-6, "{}", m.ln());
+        // A second region of equal area on [3, 5] moves the median into
+        // the gap's start (cumulative half reached at y = 2).
+        let second: Vec<(f32, f32)> = tri.iter().map(|&(y, g)| (y + 3.0, g)).collect();
+        let m = median_tau([&tri, &second].into_iter()).unwrap();
+        assert!((m.ln() - 2.0).abs() < 1e-6, "{}", m.ln());
+        // A right-angled triangle rising to y = 1: the half area lies at
+        // 1/sqrt(2) of the way (linear interpolation of a 0.1 grid: within 1e-2).
+        let ramp: Vec<(f32, f32)> = (0..=10).map(|i| (i as f32 * 0.1, i as f32 * 0.1)).collect();
+        let m = median_tau(std::iter::once(&ramp)).unwrap();
+        assert!((m.ln() - 0.5f64.sqrt()).abs() < 1e-2, "{}", m.ln());
+        assert!(median_tau(std::iter::once(&vec![(0.0f32, 0.0f32), (1.0, 0.0)])).is_none());
+    }
 }

@@ -33,8 +33,8 @@ pub const ZERO_CELSIUS_K: f64 = 273.15;
 pub struct LineFit {
     /// Slope `b`.
     pub slope: f64,
-    /// Standard error of the slope (`None` with two points, or when every
-    /// point lies on the line exactly and that says nothing of the error).
+    /// Standard error of the slope (`None` with two points; 0 when every
+    /// point lies on the line exactly).
     pub slope_se: Option<f64>,
     /// Intercept `a`.
     pub intercept: f64,
@@ -164,6 +164,14 @@ mod tests {
         assert!(fit_line(&[1.0], &[1.0]).is_none());
         assert!(fit_line(&[1.0, 1.0], &[1.0, 2.0]).is_none());
         assert_eq!(fit_line(&[1.0, 2.0], &[1.0, 2.0]).unwrap().slope_se, None);
+    }
+
+    #[test]
+    fn boltzmann_constant_from_the_si_definitions() {
+        // k = 1.380649e-23 J/K and e = 1.602176634e-19 C, both exact in the
+        // 2019 SI (BIPM, The International System of Units, 9th ed.).
+        let k = 1.380649e-23 / 1.602176634e-19;
+        assert!((K_B_EV_PER_K / k - 1.0).abs() < 1e-9, "{k:e}");
     }
 
     #[test]

@@ -258,4 +258,25 @@ fn bad_series_input_fails_cleanly() {
     std::fs::create_dir_all(d.join("empty")).unwrap();
     let run = taumap(d, &["track", "empty", "--out", "o"]);
     assert_clean_failure(&run, "holds no spectrum files", d, "o");
+    // Writing into the spectra's own folder would read outputs as spectra
+    // and replace inputs named like outputs: refused, inputs untouched.
+    std::fs::copy(d.join("cycles/cycle-3.csv"), d.join("cycles/fit.csv")).unwrap();
+    let run = taumap(d, &["track", "cycles", "--out", "cycles"]);
+    assert_eq!(run.code, 2, "{}", run.explain());
+    assert!(
+        run.stderr.contains("holds the series' own files"),
+        "{}",
+        run.explain()
+    );
+    assert!(d.join("cycles/fit.csv").exists());
+    assert!(!d.join("cycles/summary.json").exists());
+    // A name without a number turns the labels off, and says so.
+    let run = taumap(d, &["track", "plain", "--out", "p", "--no-plots"]);
+    assert_eq!(run.code, 0, "{}", run.explain());
+    assert!(
+        run.stderr
+            .contains("first.csv: the file name holds no number"),
+        "{}",
+        run.explain()
+    );
 }
