@@ -358,11 +358,16 @@ fn evaluate(
     policy: LambdaPolicy,
     cell: &mut Cell,
 ) -> (bool, String) {
-    let params = SeriesParams {
+    let mut params = SeriesParams {
         lambda_policy: policy,
         temperature: case.temperature,
         ..SeriesParams::default()
     };
+    // LADDER_PENALTY=global: the global penalty alone (no adaptive
+    // refinement), for the comparison of docs/series.md.
+    if std::env::var("LADDER_PENALTY").is_ok_and(|v| v == "global") {
+        params.invert.drt.adaptive = None;
+    }
     let start = Instant::now();
     let run = track_series(spectra, &case.labels, &params).expect("the series runs");
     cell.seconds += start.elapsed().as_secs_f64();

@@ -510,6 +510,8 @@ impl Heat {
 pub fn run(a: &TrackArgs) -> Result<()> {
     let mut drt = drt_options_from(&a.solve, 10.0, OnOff::Off)?;
     drt.all_curves = false;
+    // No table of a series reports the solver's degrees of freedom.
+    drt.dof_trace = false;
     let (inductance, series_capacitance) = a.series_terms.modes();
     let params = InvertParams {
         drt,
@@ -621,17 +623,19 @@ pub fn run(a: &TrackArgs) -> Result<()> {
     };
     let mut batch = BatchInverter::new(&params, f_lo, f_hi)?;
     let readable: Vec<usize> = (0..n).filter(|&i| spans[i].is_ok()).collect();
+    let mut pilot_terms = (None, None);
     let lambda = match (a.lambda_policy, &params.drt.lambda) {
-        (LambdaPolicyArg::Series, LambdaChoice::Rule(_)) => {
+        (LambdaPolicyArg::Series, _) => {
             bar.set_message("pilot");
             let pilot: Vec<Spectrum> = pilot_positions(readable.len())
                 .into_iter()
                 .filter_map(|k| series.load(readable[k]).ok())
                 .collect();
             let refs: Vec<&Spectrum> = pilot.iter().collect();
-            let l = batch.pilot_lambda(&refs)?;
-            batch = batch.with_fixed_lambda(l)?;
-            Some(l)
+            let fixed = batch.pilot(&refs)?;
+            batch = batch.with_pilot(&fixed)?;
+            pilot_terms = (fixed.inductance, fixed.series_capacitance);
+            Some(fixed.lambda)
         }
         (_, LambdaChoice::Fixed(v)) => Some(*v),
         _ => None,
@@ -802,6 +806,8 @@ pub fn run(a: &TrackArgs) -> Result<()> {
         }
         .into(),
         lambda,
+        inductance_fitted: pilot_terms.0,
+        series_capacitance_fitted: pilot_terms.1,
         grid,
         tracks: trends.iter().map(TrackSummary::from).collect(),
         short_tracks: tracks.short_tracks.clone(),

@@ -58,6 +58,12 @@ pub struct DrtOptions {
     /// library default, since they cost about a hundred times the
     /// inversion; the command line asks for them unless `--bands off`).
     pub bands: Option<BandOptions>,
+    /// Compute the effective number of parameters of the final solve
+    /// ([`SolveInfo::dof`](super::SolveInfo), an influence-matrix trace).
+    /// A batch that reports none of it may switch it off (then `dof` is
+    /// NaN); the bands and the automatic series-term test compute what
+    /// they need whatever this says.
+    pub dof_trace: bool,
 }
 
 impl Default for DrtOptions {
@@ -88,6 +94,7 @@ impl Default for DrtOptions {
             nnls: NnlsParams::default(),
             adaptive: Some(AdaptiveOptions::default()),
             bands: None,
+            dof_trace: true,
         }
     }
 }

@@ -138,7 +138,11 @@ pub(crate) fn select(
         }
     };
     let solution = problem.solve(selection.lambda, &start);
-    let dof = problem.influence_trace(selection.lambda, &solution.free);
+    let dof = if opts.dof_trace || opts.bands.is_some() {
+        problem.influence_trace(selection.lambda, &solution.free)
+    } else {
+        f64::NAN
+    };
     // A degenerate subproblem at a tiny lambda of the path does not taint
     // the final answer; an iteration limit or a non-finite value does.
     let mut status = solution.info.status;
@@ -197,9 +201,13 @@ pub(crate) fn refine(
         status,
         kkt_residual: solution.info.kkt_residual,
         shift: solution.info.shift,
-        dof: refined
-            .problem
-            .influence_trace(solution.lambda, &solution.free),
+        dof: if opts.dof_trace || opts.bands.is_some() {
+            refined
+                .problem
+                .influence_trace(solution.lambda, &solution.free)
+        } else {
+            f64::NAN
+        },
         adaptive_iterations: Some(refined.iterations),
         adaptive_converged: refined.converged,
         adaptive_change_rel: (refined.iterations > 0).then_some(refined.change_rel),

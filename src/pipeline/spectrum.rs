@@ -412,7 +412,12 @@ impl SpectrumPlan {
             return Vec::new();
         }
         let rows = full.nrows() as f64;
-        let (residual_sq, dof) = (global.solution.residual_sq, global.info.dof);
+        let dof = if global.info.dof.is_nan() {
+            full.influence_trace(lambda, &global.solution.free)
+        } else {
+            global.info.dof
+        };
+        let residual_sq = global.solution.residual_sq;
         // A relative noise floor of 1e-9 keeps exact data from dividing by 0.
         let floor = 1e-18 * crate::linalg::dot(&s.b, &s.b) / rows;
         let sigma2 = (residual_sq / (rows - dof).max(1.0)).max(floor);

@@ -304,6 +304,12 @@ pub struct SeriesSummary {
     pub lambda_policy: String,
     /// The series lambda (`series` policy), else null.
     pub lambda: Option<f64>,
+    /// Whether the series inductance is fitted in every spectrum, as the
+    /// pilot decided (`series` policy with `--inductance auto`); null when
+    /// the mode was given or each spectrum decides.
+    pub inductance_fitted: Option<bool>,
+    /// The same for the series capacitance.
+    pub series_capacitance_fitted: Option<bool>,
     /// The common grid.
     pub grid: GridSummary,
     /// Tracks with at least `min_track_points` peaks, by id.

@@ -12,10 +12,13 @@
 //! number of threads.
 //!
 //! Lambda: with [`LambdaPolicy::Each`] every spectrum's rule chooses its
-//! own; with [`LambdaPolicy::Series`] the rule runs on a pilot sample of the
-//! series and the median of its choices (in log lambda) is used for every
+//! own (and the automatic series terms are tested per spectrum); with
+//! [`LambdaPolicy::Series`] the rule runs on a pilot sample of the series
+//! and the median of its choices (in log lambda) is used for every
 //! spectrum, so that a change along the series is not an artefact of a
-//! changed smoothing. docs/series.md compares the two on synthetic series.
+//! changed smoothing; the automatic series terms are decided on the pilot
+//! too ([`BatchInverter::pilot`]). docs/series.md compares the two
+//! policies on synthetic series.
 
 use std::collections::HashMap;
 use std::f64::consts::PI;
@@ -24,7 +27,9 @@ use rayon::prelude::*;
 
 use crate::io::Spectrum;
 use crate::lambda::LambdaChoice;
-use crate::pipeline::{DrtOptions, InvertParams, SpectrumInversion, SpectrumPlan};
+use crate::pipeline::{
+    CapacitanceMode, DrtOptions, InductanceMode, InvertParams, SpectrumInversion, SpectrumPlan,
+};
 use crate::{Error, Result};
 
 /// How lambda is chosen along a series.
@@ -137,33 +142,39 @@ impl BatchInverter {
             .collect()
     }
 
-    /// The series lambda of [`LambdaPolicy::Series`]: the median of the
-    /// rule's choices, in log lambda, over `pilot` (every spectrum given is
-    /// used; see [`pilot_positions`]). Spectra that fail are passed over;
-    /// fails when none succeeds, or when lambda is fixed already (then
-    /// there is nothing to choose).
+    /// The series lambda of [`LambdaPolicy::Series`]: see [`Self::pilot`].
     pub fn pilot_lambda(&self, pilot: &[&Spectrum]) -> Result<f64> {
-        if let LambdaChoice::Fixed(v) = self.params.drt.lambda {
-            return Ok(v);
-        }
-        // The pilot needs the global lambda only: no refinement, no bands.
+        Ok(self.pilot(pilot)?.lambda)
+    }
+
+    /// What [`LambdaPolicy::Series`] fixes for the whole series from a
+    /// pilot sample (see [`pilot_positions`]): lambda, the median of the
+    /// rule's choices in log lambda, and every series term in automatic
+    /// mode (inductance, series capacitance), kept when the significance
+    /// test keeps it in at least half the pilot's spectra. One model for
+    /// the series: a term that came and went between neighbouring spectra
+    /// would move R_inf and the fastest or slowest peak with it (and it
+    /// saves the test's two extra solves per spectrum). Spectra that fail
+    /// are passed over; fails when none succeeds. A fixed lambda is kept.
+    pub fn pilot(&self, pilot: &[&Spectrum]) -> Result<Pilot> {
+        // The pilot needs the global solution only: no refinement, no bands.
         let mut quick = self.params.clone();
         quick.drt.adaptive = None;
         quick.drt.bands = None;
         quick.drt.all_curves = false;
         let quick = Self { params: quick };
-        let mut ln: Vec<f64> = quick
+        let runs: Vec<SpectrumInversion> = quick
             .invert_all(pilot)
             .into_iter()
             .filter_map(|r| r.ok())
-            .map(|inv| inv.drt.lambda.lambda.ln())
             .collect();
-        if ln.is_empty() {
+        if runs.is_empty() {
             return Err(Error::Data(
                 "no spectrum of the pilot sample could be inverted to choose the series lambda"
                     .into(),
             ));
         }
+        let mut ln: Vec<f64> = runs.iter().map(|inv| inv.drt.lambda.lambda.ln()).collect();
         ln.sort_by(f64::total_cmp);
         let n = ln.len();
         let median = if n % 2 == 1 {
@@ -171,8 +182,53 @@ impl BatchInverter {
         } else {
             0.5 * (ln[n / 2 - 1] + ln[n / 2])
         };
-        Ok(median.exp())
+        let lambda = match self.params.drt.lambda {
+            LambdaChoice::Fixed(v) => v,
+            LambdaChoice::Rule(_) => median.exp(),
+        };
+        let kept =
+            |has: fn(&SpectrumInversion) -> bool| 2 * runs.iter().filter(|r| has(r)).count() >= n;
+        Ok(Pilot {
+            lambda,
+            inductance: (self.params.inductance == InductanceMode::Auto)
+                .then(|| kept(|r| r.drt.series.inductance_h.is_some())),
+            series_capacitance: (self.params.series_capacitance == CapacitanceMode::Auto)
+                .then(|| kept(|r| r.drt.series.series_capacitance_f.is_some())),
+        })
     }
+
+    /// The same inverter with what `pilot` fixed: lambda, and the series
+    /// terms it decided (on or off for every spectrum).
+    pub fn with_pilot(&self, pilot: &Pilot) -> Result<Self> {
+        let mut next = self.with_fixed_lambda(pilot.lambda)?;
+        if let Some(k) = pilot.inductance {
+            next.params.inductance = if k {
+                InductanceMode::On
+            } else {
+                InductanceMode::Off
+            };
+        }
+        if let Some(k) = pilot.series_capacitance {
+            next.params.series_capacitance = if k {
+                CapacitanceMode::On
+            } else {
+                CapacitanceMode::Off
+            };
+        }
+        Ok(next)
+    }
+}
+
+/// What a pilot sample fixed for a whole series ([`BatchInverter::pilot`]).
+#[derive(Clone, Copy, Debug, PartialEq, serde::Serialize)]
+pub struct Pilot {
+    /// The series lambda.
+    pub lambda: f64,
+    /// Whether the series inductance is fitted (`None`: not automatic, the
+    /// caller's mode stands).
+    pub inductance: Option<bool>,
+    /// Whether the series capacitance is fitted (`None`: not automatic).
+    pub series_capacitance: Option<bool>,
 }
 
 #[cfg(all(test, feature = "synth"))]
@@ -267,5 +323,50 @@ mod tests {
         assert_eq!(pilot_positions(3), vec![0, 1, 2]);
         let p = pilot_positions(1000);
         assert_eq!((p.len(), p[0], p[15]), (16, 0, 999));
+    }
+
+    #[test]
+    fn the_pilot_decides_the_series_terms_for_the_series() {
+        let f = log_frequencies(1e-1, 1e6, 10.0);
+        let with_l = |l_h: f64, seed: u64| {
+            let cell = Series(vec![
+                Element::Resistor { r_ohm: 2.0 },
+                Element::Inductor { l_h },
+                Element::Voigt {
+                    r_ohm: 10.0,
+                    tau_s: 1e-3,
+                },
+            ]);
+            let (mut re, mut im) = cell.sample(&f);
+            add_noise(&mut re, &mut im, 1e-3, seed);
+            Spectrum::new(f.clone(), re, im).unwrap()
+        };
+        let batch = BatchInverter::new(&InvertParams::default(), 1e-1, 1e6).unwrap();
+        // 1 uH: +6 ohm at 1 MHz, far above the noise; 0: none.
+        for (l_h, kept) in [(1e-6, true), (0.0, false)] {
+            let s: Vec<Spectrum> = (0..5).map(|i| with_l(l_h, 20 + i)).collect();
+            let refs: Vec<&Spectrum> = s.iter().collect();
+            let p = batch.pilot(&refs).unwrap();
+            assert_eq!(p.inductance, Some(kept), "L = {l_h}");
+            assert_eq!(p.series_capacitance, Some(false));
+            let fixed = batch.with_pilot(&p).unwrap();
+            let want = if kept {
+                InductanceMode::On
+            } else {
+                InductanceMode::Off
+            };
+            assert_eq!(fixed.params().inductance, want);
+            assert_eq!(fixed.params().series_capacitance, CapacitanceMode::Off);
+            assert_eq!(fixed.params().drt.lambda, LambdaChoice::Fixed(p.lambda));
+        }
+        // A mode given by the caller is not the pilot's to decide.
+        let on = InvertParams {
+            inductance: InductanceMode::On,
+            ..InvertParams::default()
+        };
+        let s: Vec<Spectrum> = (0..3).map(|i| with_l(0.0, 40 + i)).collect();
+        let refs: Vec<&Spectrum> = s.iter().collect();
+        let b = BatchInverter::new(&on, 1e-1, 1e6).unwrap();
+        assert_eq!(b.pilot(&refs).unwrap().inductance, None);
     }
 }

@@ -16,7 +16,7 @@ pub mod batch;
 pub mod link;
 pub mod trend;
 
-pub use batch::{BatchInverter, LambdaPolicy, PILOT_SPECTRA, pilot_positions};
+pub use batch::{BatchInverter, LambdaPolicy, PILOT_SPECTRA, Pilot, pilot_positions};
 pub use link::{LinkOptions, Linker, PeakPoint};
 pub use trend::{Activation, K_B_EV_PER_K, LineFit, TemperatureUnit, arrhenius, fit_line};
 
@@ -550,9 +550,9 @@ pub fn track_series(
                 .into_iter()
                 .map(|i| refs[i])
                 .collect();
-            let l = batch.pilot_lambda(&pilot)?;
-            batch = batch.with_fixed_lambda(l)?;
-            Some(l)
+            let fixed = batch.pilot(&pilot)?;
+            batch = batch.with_pilot(&fixed)?;
+            Some(fixed.lambda)
         }
     };
     let inversions = batch.invert_all(&refs);
