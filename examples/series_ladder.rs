@@ -368,6 +368,16 @@ fn evaluate(
     if std::env::var("LADDER_PENALTY").is_ok_and(|v| v == "global") {
         params.invert.drt.adaptive = None;
     }
+    // LADDER_ADAPTIVE_ITER=N: at most N weighted solves of the adaptive
+    // penalty (default 10).
+    if let (Some(a), Some(n)) = (
+        params.invert.drt.adaptive.as_mut(),
+        std::env::var("LADDER_ADAPTIVE_ITER")
+            .ok()
+            .and_then(|v| v.parse().ok()),
+    ) {
+        a.max_iter = n;
+    }
     let start = Instant::now();
     let run = track_series(spectra, &case.labels, &params).expect("the series runs");
     cell.seconds += start.elapsed().as_secs_f64();

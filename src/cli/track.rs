@@ -652,7 +652,6 @@ pub fn run(a: &TrackArgs) -> Result<()> {
     let mut skipped: Vec<SkippedSpectrum> = Vec::new();
     let mut warned = 0usize;
     let mut grid_summary: Option<GridSummary> = None;
-    let mut grid_rows: Vec<usize> = Vec::new();
     for start in (0..n).step_by(CHUNK) {
         let end = (start + CHUNK).min(n);
         let loaded: Vec<std::result::Result<Spectrum, String>> = (start..end)
@@ -669,21 +668,42 @@ pub fn run(a: &TrackArgs) -> Result<()> {
             }
         }
         let ok: Vec<&Spectrum> = loaded.iter().filter_map(|r| r.as_ref().ok()).collect();
-        let mut inverted = batch.invert_all(&ok).into_iter();
+        let results = batch.invert_all(&ok);
+        // The rows of drt-series.csv, formatted in parallel (a hundred
+        // numbers a spectrum: on one core, a tenth of the run).
+        let ok_positions: Vec<usize> = (start..end)
+            .zip(&loaded)
+            .filter(|(_, r)| r.is_ok())
+            .map(|(i, _)| i)
+            .collect();
+        let mut drt_rows = results
+            .par_iter()
+            .zip(ok_positions.par_iter())
+            .map(|(r, &i)| {
+                r.as_ref().ok().map(|inv| {
+                    let d = &inv.drt;
+                    rs::drt_series_rows(i, series.inputs[i].label, d, &rs::grid_sample_indices(d))
+                })
+            })
+            .collect::<Vec<Option<String>>>()
+            .into_iter();
+        let mut inverted = results.into_iter();
         for (i, r) in (start..end).zip(&loaded) {
             let input = &series.inputs[i];
-            let result: std::result::Result<SpectrumInversion, String> = match r {
-                Ok(_) => inverted
-                    .next()
-                    .expect("one result per spectrum")
-                    .map_err(|e| e.to_string()),
-                Err(e) => Err(e.clone()),
+            let (result, rows): (std::result::Result<SpectrumInversion, String>, _) = match r {
+                Ok(_) => (
+                    inverted
+                        .next()
+                        .expect("one result per spectrum")
+                        .map_err(|e| e.to_string()),
+                    drt_rows.next().expect("one row set per spectrum"),
+                ),
+                Err(e) => (Err(e.clone()), None),
             };
             match &result {
                 Ok(inv) => {
                     let d = &inv.drt;
                     if grid_summary.is_none() {
-                        grid_rows = rs::grid_sample_indices(d);
                         let t = d.grid.tau_s();
                         grid_summary = Some(GridSummary {
                             tau_min_s: t[0],
@@ -693,8 +713,7 @@ pub fn run(a: &TrackArgs) -> Result<()> {
                         });
                     }
                     tracker.push(i, input.label, d);
-                    drt_csv
-                        .write_all(rs::drt_series_rows(i, input.label, d, &grid_rows).as_bytes())?;
+                    drt_csv.write_all(rows.unwrap_or_default().as_bytes())?;
                     heat.add(i, x_of(i, &series.inputs), d);
                     for w in &d.warnings {
                         if warned < PRINTED_WARNINGS {
