@@ -20,6 +20,8 @@
 //!   the shared result type [`Distribution`], and the spectrum and
 //!   transient front ends ([`SpectrumPlan`], [`TransientPlan`]) with the
 //!   log-time binning of transients.
+//! - [`circuit`]: equivalent-circuit elements (impedance and analytical
+//!   DRT of each).
 //! - [`grid`]: the log-spaced tau grid.
 //! - [`kernel`]: basis functions, quadrature, impedance and step kernels.
 //! - [`solve`]: NNLS, the Tikhonov problem and (feature `osqp`) an
@@ -58,6 +60,7 @@
 //! ```
 #![warn(missing_docs)]
 
+pub mod circuit;
 pub mod error;
 pub mod grid;
 pub mod io;
