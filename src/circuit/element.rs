@@ -430,3 +430,428 @@ impl Series {
     }
 }
 
+/// The kind of an element, without its values: the keyword of the model
+/// text format ([`crate::circuit::text`]) and the order and meaning of its
+/// parameters ([`Kind::params`], [`Element::params`]).
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, PartialOrd, Ord, serde::Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum Kind {
+    /// [`Element::Resistor`].
+    Resistor,
+    /// [`Element::Inductor`].
+    Inductor,
+    /// [`Element::Capacitor`].
+    Capacitor,
+    /// [`Element::Voigt`].
+    Voigt,
+    /// [`Element::Zarc`].
+    Zarc,
+    /// [`Element::HavriliakNegami`].
+    HavriliakNegami,
+    /// [`Element::WarburgFinite`] (transmissive boundary).
+    WarburgTransmissive,
+    /// [`Element::WarburgReflective`].
+    WarburgReflective,
+    /// [`Element::Gerischer`].
+    Gerischer,
+}
+
+/// The physical quantity of a parameter (its SI unit).
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Quantity {
+    /// Resistance, ohm.
+    Resistance,
+    /// Inductance, henry.
+    Inductance,
+    /// Capacitance, farad.
+    Capacitance,
+    /// Time, second.
+    Time,
+    /// A dimensionless exponent in (0, 1].
+    Exponent,
+}
+
+impl Quantity {
+    /// The SI unit symbol as the model text writes it (`""` for exponents).
+    pub fn unit(self) -> &'static str {
+        match self {
+            Quantity::Resistance => "ohm",
+            Quantity::Inductance => "H",
+            Quantity::Capacitance => "F",
+            Quantity::Time => "s",
+            Quantity::Exponent => "",
+        }
+    }
+}
+
+/// One parameter of an element kind.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub struct ParamSpec {
+    /// Name in the model text and in summaries (`r`, `tau`, `phi`, ...).
+    pub name: &'static str,
+    /// What it measures; values are positive, exponents in (0, 1].
+    pub quantity: Quantity,
+}
+
+const R: ParamSpec = ParamSpec {
+    name: "r",
+    quantity: Quantity::Resistance,
+};
+const TAU: ParamSpec = ParamSpec {
+    name: "tau",
+    quantity: Quantity::Time,
+};
+const fn exponent(name: &'static str) -> ParamSpec {
+    ParamSpec {
+        name,
+        quantity: Quantity::Exponent,
+    }
+}
+
+impl Kind {
+    /// Every kind, in the order of the model text documentation.
+    pub const ALL: [Kind; 9] = [
+        Kind::Resistor,
+        Kind::Inductor,
+        Kind::Capacitor,
+        Kind::Voigt,
+        Kind::Zarc,
+        Kind::HavriliakNegami,
+        Kind::WarburgTransmissive,
+        Kind::WarburgReflective,
+        Kind::Gerischer,
+    ];
+
+    /// The keyword of the model text format.
+    pub fn name(self) -> &'static str {
+        match self {
+            Kind::Resistor => "resistor",
+            Kind::Inductor => "inductor",
+            Kind::Capacitor => "capacitor",
+            Kind::Voigt => "voigt",
+            Kind::Zarc => "zarc",
+            Kind::HavriliakNegami => "havriliak-negami",
+            Kind::WarburgTransmissive => "warburg-transmissive",
+            Kind::WarburgReflective => "warburg-reflective",
+            Kind::Gerischer => "gerischer",
+        }
+    }
+
+    /// The kind of a keyword.
+    pub fn from_name(name: &str) -> Option<Kind> {
+        Kind::ALL.into_iter().find(|k| k.name() == name)
+    }
+
+    /// The parameters, in the order of [`Element::params`].
+    pub fn params(self) -> &'static [ParamSpec] {
+        const L: ParamSpec = ParamSpec {
+            name: "l",
+            quantity: Quantity::Inductance,
+        };
+        const C: ParamSpec = ParamSpec {
+            name: "c",
+            quantity: Quantity::Capacitance,
+        };
+        const PHI: ParamSpec = exponent("phi");
+        const ALPHA: ParamSpec = exponent("alpha");
+        const BETA: ParamSpec = exponent("beta");
+        match self {
+            Kind::Resistor => &[R],
+            Kind::Inductor => &[L],
+            Kind::Capacitor => &[C],
+            Kind::Voigt | Kind::WarburgTransmissive | Kind::WarburgReflective | Kind::Gerischer => {
+                &[R, TAU]
+            }
+            Kind::Zarc => &[R, TAU, PHI],
+            Kind::HavriliakNegami => &[R, TAU, ALPHA, BETA],
+        }
+    }
+
+    /// Whether the element relaxes (has a time constant and a DRT): a
+    /// process in the sense of the process count; false for R, L and C.
+    pub fn is_process(self) -> bool {
+        !matches!(self, Kind::Resistor | Kind::Inductor | Kind::Capacitor)
+    }
+
+    /// The element of this kind with parameter values `p` (in the order of
+    /// [`Kind::params`]; `p.len()` must match).
+    pub fn element(self, p: &[f64]) -> Element {
+        assert_eq!(
+            p.len(),
+            self.params().len(),
+            "{} takes {} parameters",
+            self.name(),
+            self.params().len()
+        );
+        match self {
+            Kind::Resistor => Element::Resistor { r_ohm: p[0] },
+            Kind::Inductor => Element::Inductor { l_h: p[0] },
+            Kind::Capacitor => Element::Capacitor { c_f: p[0] },
+            Kind::Voigt => Element::Voigt {
+                r_ohm: p[0],
+                tau_s: p[1],
+            },
+            Kind::Zarc => Element::Zarc {
+                r_ohm: p[0],
+                tau_s: p[1],
+                phi: p[2],
+            },
+            Kind::HavriliakNegami => Element::HavriliakNegami {
+                r_ohm: p[0],
+                tau_s: p[1],
+                alpha: p[2],
+                beta: p[3],
+            },
+            Kind::WarburgTransmissive => Element::WarburgFinite {
+                r_ohm: p[0],
+                tau_s: p[1],
+            },
+            Kind::WarburgReflective => Element::WarburgReflective {
+                r_ohm: p[0],
+                tau_s: p[1],
+            },
+            Kind::Gerischer => Element::Gerischer {
+                r_ohm: p[0],
+                tau_s: p[1],
+            },
+        }
+    }
+}
+
+impl Element {
+    /// The element's kind.
+    pub fn kind(&self) -> Kind {
+        match self {
+            Element::Resistor { .. } => Kind::Resistor,
+            Element::Inductor { .. } => Kind::Inductor,
+            Element::Capacitor { .. } => Kind::Capacitor,
+            Element::Voigt { .. } => Kind::Voigt,
+            Element::Zarc { .. } => Kind::Zarc,
+            Element::HavriliakNegami { .. } => Kind::HavriliakNegami,
+            Element::WarburgFinite { .. } => Kind::WarburgTransmissive,
+            Element::WarburgReflective { .. } => Kind::WarburgReflective,
+            Element::Gerischer { .. } => Kind::Gerischer,
+        }
+    }
+
+    /// The parameter values, in the order of [`Kind::params`].
+    pub fn params(&self) -> Vec<f64> {
+        match *self {
+            Element::Resistor { r_ohm } => vec![r_ohm],
+            Element::Inductor { l_h } => vec![l_h],
+            Element::Capacitor { c_f } => vec![c_f],
+            Element::Voigt { r_ohm, tau_s }
+            | Element::WarburgFinite { r_ohm, tau_s }
+            | Element::WarburgReflective { r_ohm, tau_s }
+            | Element::Gerischer { r_ohm, tau_s } => vec![r_ohm, tau_s],
+            Element::Zarc { r_ohm, tau_s, phi } => vec![r_ohm, tau_s, phi],
+            Element::HavriliakNegami {
+                r_ohm,
+                tau_s,
+                alpha,
+                beta,
+            } => vec![r_ohm, tau_s, alpha, beta],
+        }
+    }
+}
+
+#[cfg(test)]
+mod kind_tests {
+    use super::*;
+
+    #[test]
+    fn params_round_trip_through_kind() {
+        let all = [
+            Element::Resistor { r_ohm: 1.0 },
+            Element::Inductor { l_h: 2e-9 },
+            Element::Capacitor { c_f: 3e-3 },
+            Element::Voigt {
+                r_ohm: 1.0,
+                tau_s: 2.0,
+            },
+            Element::Zarc {
+                r_ohm: 1.0,
+                tau_s: 2.0,
+                phi: 0.7,
+            },
+            Element::HavriliakNegami {
+                r_ohm: 1.0,
+                tau_s: 2.0,
+                alpha: 0.7,
+                beta: 0.6,
+            },
+            Element::WarburgFinite {
+                r_ohm: 1.0,
+                tau_s: 2.0,
+            },
+            Element::WarburgReflective {
+                r_ohm: 1.0,
+                tau_s: 2.0,
+            },
+            Element::Gerischer {
+                r_ohm: 1.0,
+                tau_s: 2.0,
+            },
+        ];
+        for (e, k) in all.iter().zip(Kind::ALL) {
+            assert_eq!(e.kind(), k);
+            assert_eq!(k.element(&e.params()), *e);
+            assert_eq!(Kind::from_name(k.name()), Some(k));
+        }
+    }
+}
+
+impl Element {
+    /// Derivatives of the impedance at `omega_rad_s` with respect to each
+    /// parameter, in the order of [`Element::params`] (for the Jacobian of a
+    /// circuit fit). Differentiated by hand from the impedances above, with
+    /// x = (j w tau)^phi (ZARC), x = (j w tau)^alpha (HN) and s = sqrt(j w
+    /// tau) (Warburg elements; ds/dtau = s / (2 tau)):
+    ///
+    /// - Voigt: dZ/dR = 1/(1 + j w tau), dZ/dtau = -R j w / (1 + j w tau)^2;
+    /// - ZARC: dZ/dR = 1/(1 + x), dZ/dtau = -R phi x / (tau (1 + x)^2),
+    ///   dZ/dphi = -R x ln(j w tau) / (1 + x)^2;
+    /// - HN: dZ/dR = (1 + x)^-beta, dZ/dtau = -R beta alpha x (1 + x)^(-beta-1) / tau,
+    ///   dZ/dalpha = -R beta x ln(j w tau) (1 + x)^(-beta-1), dZ/dbeta = -Z ln(1 + x);
+    /// - transmissive Warburg: dZ/ds = R (sech^2 s / s - tanh s / s^2);
+    /// - reflective Warburg: dZ/ds = -R (csch^2 s / s + coth s / s^2);
+    /// - Gerischer: dZ/dR = Z/R, dZ/dtau = -R j w / (2 (1 + j w tau)^(3/2)).
+    pub fn gradient(&self, omega_rad_s: f64) -> Vec<Complex64> {
+        let jw = Complex64::new(0.0, omega_rad_s);
+        let one = Complex64::new(1.0, 0.0);
+        match *self {
+            Element::Resistor { .. } => vec![one],
+            Element::Inductor { .. } => vec![jw],
+            Element::Capacitor { c_f } => vec![-1.0 / (jw * c_f * c_f)],
+            Element::Voigt { r_ohm, tau_s } => {
+                let d = 1.0 + jw * tau_s;
+                vec![1.0 / d, -r_ohm * jw / (d * d)]
+            }
+            Element::Zarc { r_ohm, tau_s, phi } => {
+                let l = (jw * tau_s).ln();
+                let x = (phi * l).exp();
+                let d = 1.0 + x;
+                let d2 = d * d;
+                vec![
+                    1.0 / d,
+                    -r_ohm * phi * x / (tau_s * d2),
+                    -r_ohm * x * l / d2,
+                ]
+            }
+            Element::HavriliakNegami {
+                r_ohm,
+                tau_s,
+                alpha,
+                beta,
+            } => {
+                let l = (jw * tau_s).ln();
+                let x = (alpha * l).exp();
+                let d = 1.0 + x;
+                let z1 = d.powf(-beta);
+                let z2 = z1 / d;
+                vec![
+                    z1,
+                    -r_ohm * beta * alpha * x * z2 / tau_s,
+                    -r_ohm * beta * x * l * z2,
+                    -r_ohm * z1 * d.ln(),
+                ]
+            }
+            Element::WarburgFinite { r_ohm, tau_s }
+            | Element::WarburgReflective { r_ohm, tau_s } => {
+                let s = (jw * tau_s).sqrt();
+                let z = self.impedance(omega_rad_s);
+                let dz_ds = if s.norm() < 1e-4 {
+                    // Series of tanh(s)/s and coth(s)/s near 0.
+                    if matches!(self, Element::WarburgFinite { .. }) {
+                        r_ohm * (-2.0 * s / 3.0)
+                    } else {
+                        r_ohm * (-2.0 / (s * s * s) - 2.0 * s / 45.0)
+                    }
+                } else if s.re > 20.0 {
+                    -z / s
+                } else {
+                    let t = s.tanh();
+                    if matches!(self, Element::WarburgFinite { .. }) {
+                        r_ohm * ((1.0 - t * t) / s - t / (s * s))
+                    } else {
+                        let c = 1.0 / t;
+                        r_ohm * (-(c * c - 1.0) / s - c / (s * s))
+                    }
+                };
+                vec![z / r_ohm, dz_ds * s / (2.0 * tau_s)]
+            }
+            Element::Gerischer { r_ohm, tau_s } => {
+                let d = 1.0 + jw * tau_s;
+                let sq = d.sqrt();
+                vec![1.0 / sq, -r_ohm * jw / (2.0 * d * sq)]
+            }
+        }
+    }
+}
+
+#[cfg(test)]
+mod gradient_tests {
+    use super::*;
+
+    /// Every analytical derivative against a central difference of the
+    /// impedance (relative step 1e-6), over five decades of w tau.
+    #[test]
+    fn gradient_matches_central_differences() {
+        let all = [
+            Element::Resistor { r_ohm: 1.5 },
+            Element::Inductor { l_h: 2e-7 },
+            Element::Capacitor { c_f: 3e-3 },
+            Element::Voigt {
+                r_ohm: 1.5,
+                tau_s: 2e-3,
+            },
+            Element::Zarc {
+                r_ohm: 1.5,
+                tau_s: 2e-3,
+                phi: 0.7,
+            },
+            Element::HavriliakNegami {
+                r_ohm: 1.5,
+                tau_s: 2e-3,
+                alpha: 0.7,
+                beta: 0.6,
+            },
+            Element::WarburgFinite {
+                r_ohm: 1.5,
+                tau_s: 2e-3,
+            },
+            Element::WarburgReflective {
+                r_ohm: 1.5,
+                tau_s: 2e-3,
+            },
+            Element::Gerischer {
+                r_ohm: 1.5,
+                tau_s: 2e-3,
+            },
+        ];
+        for e in all {
+            let p = e.params();
+            for w in [1e-1, 1e1, 5e2, 1e4, 1e6, 1e8] {
+                let g = e.gradient(w);
+                for k in 0..p.len() {
+                    let h = 1e-6 * p[k];
+                    let mut a = p.clone();
+                    let mut b = p.clone();
+                    a[k] += h;
+                    b[k] -= h;
+                    let fd = (e.kind().element(&a).impedance(w)
+                        - e.kind().element(&b).impedance(w))
+                        / (2.0 * h);
+                    let scale = e.impedance(w).norm() / p[k];
+                    assert!(
+                        (g[k] - fd).norm() <= 1e-6 * scale.max(fd.norm()),
+                        "{:?} w {w} param {k}: {} vs {}",
+                        e.kind(),
+                        g[k],
+                        fd
+                    );
+                }
+            }
+        }
+    }
+}
