@@ -13,6 +13,10 @@ mod errors_doc;
 mod invert;
 #[path = "cli/kk.rs"]
 mod kk;
+#[path = "cli/model.rs"]
+mod model;
+#[path = "cli/model_text.rs"]
+mod model_text;
 #[path = "cli/plots.rs"]
 mod plots;
 #[path = "cli/readers.rs"]

@@ -312,24 +312,11 @@ impl Element {
 
 /// `integral gamma exp(-t/tau') d ln tau'` of the Gerischer element:
 /// with tau' = tau0 sin^2(theta) the 1/sqrt singularity at tau0 goes away,
-/// `(2R/pi) integral_0^{pi/2} exp(-t/(tau0 sin^2 theta)) d theta`, summed by
-/// composite 8-point Gauss-Legendre on 64 panels (the integrand is smooth).
+/// `(2R/pi) integral_0^{pi/2} exp(-t/(tau0 sin^2 theta)) d theta`, which is
+/// Craig's form of the complementary error function (J. W. Craig (1991),
+/// Proc. IEEE MILCOM, 571-575): `R erfc(sqrt(t/tau0))`.
 fn gerischer_decay(r_ohm: f64, tau0_s: f64, t_s: f64) -> f64 {
-    let gl = crate::kernel::quadrature::gauss_legendre(8);
-    let panels = 64;
-    let h = PI / 2.0 / panels as f64;
-    let mut sum = 0.0;
-    for p in 0..panels {
-        let a = p as f64 * h;
-        for &(x, w) in &gl {
-            let th = a + h * (x + 1.0) / 2.0;
-            let s = th.sin();
-            if s > 0.0 {
-                sum += w * h / 2.0 * (-t_s / (tau0_s * s * s)).exp();
-            }
-        }
-    }
-    2.0 * r_ohm / PI * sum
+    r_ohm * libm::erfc((t_s / tau0_s).sqrt())
 }
 
 /// `sum_k 2R/a_k exp(-a_k t/tau)` over the Warburg lines

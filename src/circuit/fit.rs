@@ -196,12 +196,12 @@ pub struct FitOptions {
 }
 
 impl Default for FitOptions {
-    /// ftol 1e-12, xtol 1e-10, patience 200, correlation warning at 0.98.
+    /// ftol 1e-12, xtol 1e-10, patience 50, correlation warning at 0.98.
     fn default() -> Self {
         Self {
             ftol: 1e-12,
             xtol: 1e-10,
-            patience: 200,
+            patience: 50,
             correlation_warn: 0.98,
         }
     }

@@ -2,5 +2,9 @@
 //! ([`element`]).
 
 pub mod element;
+pub mod fit;
+pub mod propose;
+pub mod text;
 
 pub use element::{Element, Series};
+pub use text::{Model, ModelElement};

@@ -17,7 +17,9 @@
 //! values.
 //!
 //! After the fit, each process tries the element its shape suggests in
-//! place of the ZARC, and keeps it when the BIC is lower: a Voigt element
+//! place of the ZARC, and keeps it when the BIC is lower, in passes over
+//! the processes until no change helps (at most three; each combination of
+//! kinds fitted once): a Voigt element
 //! (phi near 1: a narrow peak, one parameter fewer), a Havriliak-Negami
 //! element (a skewed peak), a Gerischer element (a peak with a long tail
 //! towards short tau and a steep edge at long tau), and for the slowest
@@ -294,6 +296,32 @@ fn alternatives(e: &Element, shape: Option<&PeakShape>, slowest: bool) -> Vec<El
     alt
 }
 
+/// Fits `start` and returns the fit with its processes in ascending tau:
+/// a fit may trade the roles of two elements of one kind (the same
+/// circuit), and the candidates are read and compared process by process,
+/// so a permuted result is put in order and refitted from there (one or
+/// two iterations).
+fn fit_ordered(data: &FitData, start: &[Element], opts: &FitOptions) -> Result<CircuitFit> {
+    let fit = fit_circuit(data, start, &[], opts)?;
+    let circuit = fit.circuit();
+    let procs: Vec<usize> = (0..circuit.len())
+        .filter(|&i| circuit[i].kind().is_process())
+        .collect();
+    let ordered = procs
+        .windows(2)
+        .all(|w| tau_of(&circuit[w[0]]) <= tau_of(&circuit[w[1]]));
+    if ordered {
+        return Ok(fit);
+    }
+    let mut sorted: Vec<Element> = procs.iter().map(|&i| circuit[i]).collect();
+    sorted.sort_by(|a, b| tau_of(a).total_cmp(&tau_of(b)));
+    let mut again = circuit.clone();
+    for (&slot, e) in procs.iter().zip(sorted) {
+        again[slot] = e;
+    }
+    fit_circuit(data, &again, &[], opts)
+}
+
 /// Builds and fits the candidates for the spectrum `data` from its DRT
 /// `drt` (the inversion of the same spectrum).
 pub fn propose(data: &FitData, drt: &Distribution, opts: &ProposeOptions) -> Result<Selection> {
@@ -370,7 +398,7 @@ pub fn propose(data: &FitData, drt: &Distribution, opts: &ProposeOptions) -> Res
         let mut best: Option<(CircuitFit, Vec<Element>)> = None;
         let mut failure = None;
         for st in [start, fresh_start] {
-            match fit_circuit(data, &st, &[], &opts.fit) {
+            match fit_ordered(data, &st, &opts.fit) {
                 Ok(f) => {
                     if best.as_ref().is_none_or(|(b, _)| f.bic < b.bic) {
                         best = Some((f, st));
@@ -391,25 +419,40 @@ pub fn propose(data: &FitData, drt: &Distribution, opts: &ProposeOptions) -> Res
             kinds: start.iter().map(|e| e.kind().name()).collect(),
             bic: Some(best.bic),
         });
-        // Element-kind variants, one process at a time.
+        // Element-kind variants, one process at a time, in passes until
+        // none improves the BIC (a kind that lost while a neighbour was
+        // still wrong gets another chance); each combination of kinds is
+        // fitted once.
         let offset = base.len();
-        for i in 0..procs.len() {
-            let fitted: Vec<Element> = best.circuit();
-            let shape = procs[i].1.map(|p| &peaks[p]);
-            for alt in alternatives(&fitted[offset + i], shape, i + 1 == procs.len()) {
-                let mut trial = fitted.clone();
-                trial[offset + i] = alt;
-                let r = fit_circuit(data, &trial, &[], &opts.fit);
-                variants.push(Variant {
-                    kinds: trial.iter().map(|e| e.kind().name()).collect(),
-                    bic: r.as_ref().ok().map(|f| f.bic),
-                });
-                if let Ok(f) = r
-                    && f.converged
-                    && f.bic < best.bic
-                {
-                    best = f;
+        let mut tried = std::collections::BTreeSet::new();
+        tried.insert(start.iter().map(Element::kind).collect::<Vec<_>>());
+        for _pass in 0..3 {
+            let mut improved = false;
+            for i in 0..procs.len() {
+                let fitted: Vec<Element> = best.circuit();
+                let shape = procs[i].1.map(|p| &peaks[p]);
+                for alt in alternatives(&fitted[offset + i], shape, i + 1 == procs.len()) {
+                    let mut trial = fitted.clone();
+                    trial[offset + i] = alt;
+                    if !tried.insert(trial.iter().map(Element::kind).collect::<Vec<_>>()) {
+                        continue;
+                    }
+                    let r = fit_ordered(data, &trial, &opts.fit);
+                    variants.push(Variant {
+                        kinds: trial.iter().map(|e| e.kind().name()).collect(),
+                        bic: r.as_ref().ok().map(|f| f.bic),
+                    });
+                    if let Ok(f) = r
+                        && f.converged
+                        && f.bic < best.bic
+                    {
+                        best = f;
+                        improved = true;
+                    }
                 }
+            }
+            if !improved {
+                break;
             }
         }
         // Carry the fitted processes forward (in tau order).

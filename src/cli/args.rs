@@ -27,6 +27,13 @@ pub enum Command {
     /// Test an impedance spectrum (CSV) for Kramers-Kronig validity
     /// (linear, causal, stable while measured).
     Kk(KkArgs),
+    /// Write the impedance spectrum (or the step response) of an
+    /// equivalent-circuit model file as CSV, ready for invert (or
+    /// transient).
+    Simulate(SimulateArgs),
+    /// Propose equivalent circuits from the DRT peaks of a spectrum, fit
+    /// each by complex non-linear least squares and rank them by BIC.
+    Model(ModelArgs),
     /// Write the demo scenario into demo-data/ and invert it.
     Demo(DemoArgs),
 }
@@ -461,4 +468,106 @@ pub struct DemoArgs {
     /// Directory for the demo data.
     #[arg(long, value_name = "DIR", default_value = "demo-data")]
     pub dir: PathBuf,
+}
+
+/// `taumap simulate`.
+#[derive(Args, Debug)]
+pub struct SimulateArgs {
+    /// Model file: one element per line, all in series (see
+    /// docs/model-format.md).
+    #[arg(value_name = "MODEL")]
+    pub model: PathBuf,
+    /// Output CSV file (replaced atomically); `-` writes to standard output.
+    #[arg(long, value_name = "FILE.csv")]
+    pub out: PathBuf,
+    /// Lowest frequency of the spectrum (Hz).
+    #[arg(
+        long,
+        value_name = "HZ",
+        default_value_t = 0.01,
+        allow_negative_numbers = true,
+        conflicts_with = "step_current_a"
+    )]
+    pub from_hz: f64,
+    /// Highest frequency of the spectrum (Hz).
+    #[arg(
+        long,
+        value_name = "HZ",
+        default_value_t = 1e5,
+        allow_negative_numbers = true,
+        conflicts_with = "step_current_a"
+    )]
+    pub to_hz: f64,
+    /// Points per decade, log-spaced [default: 10 for a spectrum, 100 for
+    /// a step response].
+    #[arg(long, value_name = "N", allow_negative_numbers = true)]
+    pub per_decade: Option<f64>,
+    /// Relative noise: Gaussian, of standard deviation X times |Z| on each
+    /// of the real and imaginary parts of a spectrum, or X times the
+    /// largest voltage change of a step response.
+    #[arg(
+        long,
+        value_name = "X",
+        default_value_t = 0.0,
+        allow_negative_numbers = true
+    )]
+    pub noise_rel: f64,
+    /// Seed of the noise (the same seed gives the same file).
+    #[arg(long, value_name = "N", default_value_t = 1)]
+    pub seed: u64,
+    /// Write instead the voltage response to a current step of I amperes
+    /// from rest at t = 0 (the input of `taumap transient
+    /// --current-step-a I`).
+    #[arg(long, value_name = "I", allow_negative_numbers = true)]
+    pub step_current_a: Option<f64>,
+    /// First sample after the step (s).
+    #[arg(
+        long,
+        value_name = "S",
+        default_value_t = 1e-6,
+        allow_negative_numbers = true,
+        requires = "step_current_a"
+    )]
+    pub from_s: f64,
+    /// Last sample after the step (s).
+    #[arg(
+        long,
+        value_name = "S",
+        default_value_t = 100.0,
+        allow_negative_numbers = true,
+        requires = "step_current_a"
+    )]
+    pub to_s: f64,
+}
+
+/// `taumap model`.
+#[derive(Args, Debug)]
+pub struct ModelArgs {
+    /// Input spectrum, as for `invert`; `-` reads standard input (then
+    /// --out is needed).
+    #[arg(value_name = "IN.csv")]
+    pub input: PathBuf,
+    /// Output directory (created if missing); default <stem>-model/ beside the input.
+    #[arg(long, value_name = "DIR")]
+    pub out: Option<PathBuf>,
+    /// Largest number of processes proposed (candidates of 1..K processes).
+    #[arg(long, value_name = "K", default_value_t = 4)]
+    pub max_processes: usize,
+    /// Fit this model (text format, as written by `model` or for
+    /// `simulate`) instead of proposing candidates; parameters marked
+    /// `fixed` are held.
+    #[arg(long, value_name = "MODEL.txt")]
+    pub start: Option<PathBuf>,
+    /// Series terms of the inversion that seeds the candidates.
+    #[command(flatten)]
+    pub series: SeriesTermArgs,
+    /// The band of frequencies used.
+    #[command(flatten)]
+    pub band: FrequencyBandArgs,
+    /// Column choices.
+    #[command(flatten)]
+    pub columns: ColumnArgs,
+    /// Options of the inversion that seeds the candidates.
+    #[command(flatten)]
+    pub solve: SolveArgs,
 }

@@ -18,17 +18,16 @@
 
 use super::args::DemoArgs;
 use super::invert::{default_out_dir, invert_into, report_run};
+use super::simulate::transient_csv;
 use super::transient::{self, transient_into};
 use anyhow::Result;
 use clap::Parser;
-use std::fmt::Write as _;
 use taumap::io::transient::read_transient;
 use taumap::io::write::write_atomic;
 use taumap::io::{Spectrum, read_spectrum};
 use taumap::pipeline::bands::BandOptions;
 use taumap::pipeline::binning::BinOptions;
 use taumap::pipeline::{DrtOptions, InvertParams, StepKind, TransientParams};
-use taumap::report::num;
 use taumap::synth::{Element, Series, add_noise, add_white_noise, log_frequencies, log_times};
 
 /// Name of the demo spectrum file.
@@ -136,34 +135,27 @@ pub fn demo_pulse() -> (Vec<f64>, Vec<f64>) {
 }
 
 fn pulse_csv(t: &[f64], v: &[f64]) -> String {
-    let mut out = String::new();
-    out.push_str("# taumap demo: pulse test of the button cell of button-cell-700c.csv\n");
-    out.push_str("# at rest at open circuit, then a discharge step of -0.1 A at t = 0; 20 uV noise, seed 2027\n");
-    out.push_str("time_s,voltage_v\n");
-    for (t, v) in t.iter().zip(v) {
-        let _ = writeln!(out, "{},{}", num(*t), num(*v));
-    }
-    out
+    transient_csv(
+        &[
+            "taumap demo: pulse test of the button cell of button-cell-700c.csv".into(),
+            "at rest at open circuit, then a discharge step of -0.1 A at t = 0; 20 uV noise, seed 2027".into(),
+        ],
+        t,
+        v,
+    )
 }
 
 fn spectrum_csv(s: &Spectrum) -> String {
-    let mut out = String::new();
-    out.push_str(
-        "# taumap demo: anode-supported solid-oxide button cell, 1 cm2, 700 C, open circuit\n",
-    );
-    out.push_str("# synthetic: R 0.150 ohm + L 80 nH + ZARC(0.080 ohm, 20 us, 0.85)\n");
-    out.push_str("#   + ZARC(0.120 ohm, 1 ms, 0.95) + finite Warburg(0.050 ohm, 0.5 s), 0.3 % noise, seed 2026\n");
-    out.push_str("frequency_hz,z_re_ohm,z_im_ohm\n");
-    for i in 0..s.len() {
-        let _ = writeln!(
-            out,
-            "{},{},{}",
-            num(s.frequency_hz[i]),
-            num(s.z_re_ohm[i]),
-            num(s.z_im_ohm[i])
-        );
-    }
-    out
+    super::simulate::spectrum_csv(
+        &[
+            "taumap demo: anode-supported solid-oxide button cell, 1 cm2, 700 C, open circuit".into(),
+            "synthetic: R 0.150 ohm + L 80 nH + ZARC(0.080 ohm, 20 us, 0.85)".into(),
+            "  + ZARC(0.120 ohm, 1 ms, 0.95) + finite Warburg(0.050 ohm, 0.5 s), 0.3 % noise, seed 2026".into(),
+        ],
+        &s.frequency_hz,
+        &s.z_re_ohm,
+        &s.z_im_ohm,
+    )
 }
 
 /// Runs the subcommand.

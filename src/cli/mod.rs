@@ -4,7 +4,9 @@ pub mod args;
 pub mod demo;
 pub mod invert;
 pub mod kk;
+pub mod model;
 pub mod output;
+pub mod simulate;
 pub mod track;
 pub mod transient;
 
@@ -18,6 +20,8 @@ pub fn run(cli: Cli) -> Result<()> {
         Command::Transient(a) => transient::run(&a),
         Command::Kk(a) => kk::run(&a),
         Command::Track(a) => track::run(&a),
+        Command::Simulate(a) => simulate::run(&a),
+        Command::Model(a) => model::run(&a),
         Command::Demo(a) => demo::run(&a),
     }
 }

@@ -14,7 +14,7 @@ use taumap::report;
 /// directory. A run removes those of them it does not write itself (an
 /// earlier run's plots, a `lambda.csv` from before a fixed-lambda run, the
 /// files of another command), never anything else.
-pub const OUTPUT_FILES: [&str; 27] = [
+pub const OUTPUT_FILES: [&str; 35] = [
     "drt.csv",
     "fit.csv",
     "lambda.csv",
@@ -42,6 +42,14 @@ pub const OUTPUT_FILES: [&str; 27] = [
     "trends.png",
     "arrhenius.svg",
     "arrhenius.png",
+    "model.txt",
+    "parameters.csv",
+    "model-nyquist.svg",
+    "model-nyquist.png",
+    "model-bode.svg",
+    "model-bode.png",
+    "model-drt.svg",
+    "model-drt.png",
 ];
 
 /// An empty set of outputs for `dir` that replaces every earlier

@@ -43,11 +43,11 @@ struct BodePlot<'a> {
     y_res: Axis,
 }
 
-fn magnitude(re: &[f64], im: &[f64]) -> Vec<f64> {
+pub(crate) fn magnitude(re: &[f64], im: &[f64]) -> Vec<f64> {
     re.iter().zip(im).map(|(a, b)| a.hypot(*b)).collect()
 }
 
-fn phase_deg(re: &[f64], im: &[f64]) -> Vec<f64> {
+pub(crate) fn phase_deg(re: &[f64], im: &[f64]) -> Vec<f64> {
     re.iter()
         .zip(im)
         .map(|(a, b)| b.atan2(*a).to_degrees())

@@ -13,6 +13,10 @@
 //!   the band the verdict allows.
 //! - [`render_lambda`]: one panel of score against λ per selection rule.
 //! - [`render_transient`]: a step response and its fit, with residuals.
+//! - [`render_model_nyquist`], [`render_model_bode`], [`render_model_drt`]:
+//!   equivalent circuits fitted to a spectrum: the candidates' curves over
+//!   the data, the chosen one's residuals, and its analytical DRT (a curve
+//!   and stems) over the measured one.
 //! - [`render_heatmap`], [`render_trends`], [`render_arrhenius`]: a series
 //!   of spectra: its distributions as a heat map with the tracked processes
 //!   drawn over it, the processes' τ and R against the series, and their
@@ -36,6 +40,7 @@ mod draw;
 mod drt;
 mod kk;
 mod lambda;
+mod model;
 mod nyquist;
 mod series;
 #[cfg(test)]
@@ -46,6 +51,10 @@ pub use bode::render_bode;
 pub use drt::render_drt;
 pub use kk::render_kk;
 pub use lambda::render_lambda;
+pub use model::{
+    ModelCurve, ModelDrtFigure, ModelFitFigure, render_model_bode, render_model_drt,
+    render_model_nyquist,
+};
 pub use nyquist::{equal_scale_ranges, render_nyquist};
 pub use series::{
     ArrheniusFigure, ArrheniusTrack, HeatmapFigure, TrackLine, TrackSeries, TrendFigure,

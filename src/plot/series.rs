@@ -167,7 +167,7 @@ fn level_color(l: Option<u16>, levels: u16) -> RGBColor {
 /// Okabe and Ito's palette for colour-blind readers ("Color Universal
 /// Design", 2008; values from memory), without its yellow, which is too
 /// pale on white, and with the crate's ink for its black.
-const TRACK_COLORS: [RGBColor; 7] = [
+pub(crate) const TRACK_COLORS: [RGBColor; 7] = [
     RGBColor(0, 114, 178),
     RGBColor(213, 94, 0),
     RGBColor(0, 158, 115),

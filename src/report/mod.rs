@@ -12,6 +12,7 @@
 //! parts of `summary.json` are written by the same code for both.
 
 pub mod kk;
+pub mod model;
 pub mod series;
 pub mod transient;
 
