@@ -74,7 +74,7 @@ fn model_benches(c: &mut Criterion) {
 
 criterion_group! {
     name = benches;
-    config = Criterion::default().sample_size(30);
+    config = Criterion::default().sample_size(30).without_plots();
     targets = model_benches
 }
 criterion_main!(benches);

@@ -249,3 +249,19 @@ fn ripple_peaks_of_a_weak_penalty_are_refused() {
         "the weak penalty split too few peaks: {offered_more}"
     );
 }
+
+/// At 2 % noise the DRT merges neighbouring processes into one peak; a
+/// candidate that splits a process in two (on strong BIC evidence) gets
+/// the count right where the peaks alone fall short.
+#[test]
+fn unresolved_processes_are_found_by_splitting() {
+    for (processes, seed) in [(2, 4), (3, 2), (3, 9), (4, 8)] {
+        let cell = ladder_cell(processes, seed);
+        let (f, re, im) = noisy(&cell, 0.02, seed + 7);
+        let sel = select(&f, &re, &im);
+        let bics: Vec<String> = sel.candidates.iter().map(|c| format!("{} ({} splits): {:.1}", c.processes, c.splits, c.fit.bic)).collect();
+        assert!(sel.peaks.len() < processes, "seed {seed}: the DRT resolved every process: {bics:?}");
+        assert_eq!(sel.chosen().processes, processes, "seed {seed}: {bics:?}");
+        assert!(sel.chosen().splits >= 1);
+    }
+}

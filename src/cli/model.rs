@@ -176,6 +176,7 @@ fn fit_start(data: &FitData, model: &Model, drt: &Distribution) -> Result<Select
             processes: fit.processes(),
             peak_of: vec![None; elements.len()],
             variants: Vec::new(),
+            splits: 0,
             fit,
         }],
         chosen: 0,

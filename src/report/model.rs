@@ -63,6 +63,9 @@ pub struct CandidateSummary {
     pub correlation: Correlation,
     /// Element kinds tried for this count and their BIC.
     pub variants: Vec<Variant>,
+    /// How many processes were added by splitting one the DRT shows as a
+    /// single peak (each must lower the BIC by 6 or more to count).
+    pub splits: usize,
     /// Warnings of this fit.
     pub warnings: Vec<String>,
 }
@@ -188,6 +191,7 @@ impl ModelSummary {
                         matrix: c.fit.correlation.clone(),
                     },
                     variants: c.variants.clone(),
+                    splits: c.splits,
                     warnings: c.fit.warnings.clone(),
                 }
             })
