@@ -271,8 +271,10 @@ impl Element {
     /// [`Element::lines`]; `a_k = (k pi)^2` for the reflective one, whose
     /// capacitive branch never relaxes). ZARC and Havriliak-Negami: their distributions
     /// integrated numerically (composite 8-point Gauss-Legendre, 0.05 ln
-    /// units per panel, over +-40/phi ln units around tau0, where the
-    /// Fuoss-Kirkwood tails are below 1e-13 R). Zero for R, L and C.
+    /// units per panel for phi near 1, over +-40/phi ln units around tau0,
+    /// where the Fuoss-Kirkwood tails are below 1e-13 R; wider panels and
+    /// a range cut at +-745 ln units for small exponents, see
+    /// `integrate_gamma`). Zero for R, L and C.
     pub fn unrelaxed_ohm(&self, t_s: f64) -> f64 {
         match *self {
             Element::Voigt { r_ohm, tau_s } => r_ohm * (-t_s / tau_s).exp(),
@@ -289,11 +291,23 @@ impl Element {
         }
     }
 
+    /// `half_width` is 40/phi: the distribution varies on a scale of 1/phi
+    /// ln units, so the panels widen with it (0.05/phi, at most 0.5, which
+    /// still follows the cut-off exp(-t/tau), one ln unit wide); the range
+    /// stops at +-745 ln units (beyond, tau over- or underflows) and starts
+    /// where exp(-t/tau) is still above the smallest double. The cost per
+    /// time stays bounded for any exponent.
     fn integrate_gamma(&self, t_s: f64, tau0_s: f64, half_width: f64) -> f64 {
         let gl = crate::kernel::quadrature::gauss_legendre(8);
-        let h = 0.05;
-        let y0 = tau0_s.ln() - half_width;
-        let panels = (2.0 * half_width / h).ceil() as usize;
+        let h = (half_width / 800.0).clamp(0.05, 0.5);
+        let half_width = half_width.min(745.0);
+        let y_end = tau0_s.ln() + half_width;
+        // exp(-t/tau) underflows for tau < t/745.
+        let y0 = (tau0_s.ln() - half_width).max(t_s.ln() - 745f64.ln());
+        if y0.is_nan() || y0 >= y_end {
+            return 0.0;
+        }
+        let panels = ((y_end - y0) / h).ceil() as usize;
         let mut sum = 0.0;
         for p in 0..panels {
             let a = y0 + p as f64 * h;
@@ -781,7 +795,8 @@ mod gradient_tests {
     use super::*;
 
     /// Every analytical derivative against a central difference of the
-    /// impedance (relative step 1e-6), over five decades of w tau.
+    /// impedance (relative step 1e-6), at w tau from 2e-4 to 2e5 (the small-argument series of the
+    /// Warburg elements, below w tau = 1e-8, are not reached).
     #[test]
     fn gradient_matches_central_differences() {
         let all = [

@@ -267,9 +267,21 @@ impl Problem<'_> {
             .collect()
     }
 
-    /// Weighted residuals at `u`: Re then Im of (model - data)/|data| per
-    /// point, interleaved.
+    /// Weighted residuals at `u` for the minimiser: those of
+    /// [`Problem::exact_residuals_at`], or, where the circuit's impedance is
+    /// not finite (a trial step to an extreme value), a residual of
+    /// [`NOT_FINITE_RESIDUAL`] per entry, so that the minimiser rejects the
+    /// step and shortens it instead of stopping.
     fn residuals_at(&self, u: &DVector<f64>) -> Option<DVector<f64>> {
+        Some(
+            self.exact_residuals_at(u)
+                .unwrap_or_else(|| DVector::from_element(2 * self.data.len(), NOT_FINITE_RESIDUAL)),
+        )
+    }
+
+    /// Weighted residuals at `u`: Re then Im of (model - data)/|data| per
+    /// point, interleaved; `None` where the impedance is not finite.
+    fn exact_residuals_at(&self, u: &DVector<f64>) -> Option<DVector<f64>> {
         let elements = self.elements_at(u);
         let n = self.data.len();
         let mut r = DVector::zeros(2 * n);
@@ -308,6 +320,11 @@ impl Problem<'_> {
         Some(j)
     }
 }
+
+/// The residual of a trial point where the circuit's impedance is not
+/// finite: large, so the point is rejected, and finite, so its square sums
+/// without overflow.
+const NOT_FINITE_RESIDUAL: f64 = 1e100;
 
 impl LeastSquaresProblem<f64, Dyn, Dyn> for Problem<'_> {
     type ResidualStorage = Owned<f64, Dyn>;
@@ -427,7 +444,7 @@ fn summarise(
     opts: &FitOptions,
 ) -> Result<CircuitFit> {
     let u = &problem.u;
-    let r = problem.residuals_at(u).ok_or_else(|| {
+    let r = problem.exact_residuals_at(u).ok_or_else(|| {
         Error::Data("the circuit's impedance is not finite at the fitted values".into())
     })?;
     let n = r.len();
@@ -500,12 +517,27 @@ fn summarise(
         })
         .collect();
     let mut free_names = Vec::with_capacity(p);
+    let mut bound_notes = Vec::new();
     for (k, &(e, q, t)) in problem.free.iter().enumerate() {
         let est = &mut elements[e].params[q];
         est.fixed = false;
-        est.se = cov.as_ref().map(|c| t.slope(est.value) * c[(k, k)].sqrt());
+        let at_bound = matches!(t, Transform::Logit) && t.slope(est.value) < 1e-6;
+        est.se = if at_bound {
+            None
+        } else {
+            cov.as_ref().map(|c| t.slope(est.value) * c[(k, k)].sqrt())
+        };
+        if at_bound {
+            bound_notes.push(format!(
+                "parameter {}.{} = {} is at the edge of (0, 1]: no standard error (a symmetric error means nothing there; a simpler element may describe the data)",
+                e + 1,
+                est.name,
+                est.value
+            ));
+        }
         free_names.push(format!("{}.{}", e + 1, est.name));
     }
+    warnings.extend(bound_notes);
     let correlation: Vec<Vec<f64>> = (0..p)
         .map(|a| {
             (0..p)
@@ -662,7 +694,16 @@ mod tests {
             },
             Element::Resistor { r_ohm: 1.0 },
         ];
-        assert!(fit_circuit(&d, &start, &[], &FitOptions::default()).is_err());
-        assert!(FitData::new(&[1.0], &[0.0], &[0.0]).is_err());
+        let e = fit_circuit(&d, &start, &[], &FitOptions::default()).unwrap_err();
+        assert!(
+            e.to_string()
+                .contains("3 free parameters but only 2 residuals"),
+            "{e}"
+        );
+        let e = FitData::new(&[1.0], &[0.0], &[0.0]).unwrap_err();
+        assert!(
+            e.to_string().contains("cannot be weighted by its modulus"),
+            "{e}"
+        );
     }
 }

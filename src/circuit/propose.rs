@@ -3,7 +3,9 @@
 //!
 //! # Method
 //! The series part of every candidate comes from the inversion: a resistor
-//! `R_inf`, and an inductor or a capacitor where the inversion kept one.
+//! `R_inf`, and an inductor or a capacitor where the inversion kept one;
+//! alone, they are the 0-process candidate (so BIC can refuse the first
+//! process too).
 //! Processes are added one at a time (forward selection): the next one
 //! is the DRT peak that the previous candidate's own analytical DRT
 //! explains least (the peak's area minus the fitted model's DRT area over
@@ -28,6 +30,12 @@
 //! peak at 4 tau / pi^2). Choosing between non-nested models by an
 //! information criterion is common practice (Burnham & Anderson 2002,
 //! section 2.2).
+//!
+//! When every peak is in and the last candidate was the best so far, the
+//! next candidate splits one process in two (two ZARCs half a peak width
+//! either side of it, half its resistance each): processes closer than the
+//! DRT resolves. Such a candidate needs [`SPLIT_EVIDENCE_BIC`] units of
+//! BIC per split to be chosen.
 //!
 //! The candidate with the lowest BIC is chosen; candidates within
 //! [`ProposeOptions::bic_close`] (2) units of it are named as not
@@ -225,30 +233,39 @@ pub fn phi_from_fwhm(fwhm_ln: f64) -> f64 {
     0.5 * (a + b)
 }
 
-/// Area of the DRT of `elements` between `tau_lo_s` and `tau_hi_s` (ohm):
-/// continuous parts by the midpoint rule at 200 points per decade, lines
-/// (Voigt, Warburg: 40 terms) that fall inside.
-fn model_area(elements: &[Element], tau_lo_s: f64, tau_hi_s: f64) -> f64 {
+/// Area of the continuous part of the DRT of `elements` between
+/// `tau_lo_s` and `tau_hi_s` (ohm), by the midpoint rule at 200 points per
+/// decade (at least one point): divided by the width in ln tau, the mean
+/// gamma over a cell, finite even where gamma is not (the Gerischer
+/// element at tau0).
+pub fn continuous_area(elements: &[Element], tau_lo_s: f64, tau_hi_s: f64) -> f64 {
     let (a, b) = (tau_lo_s.ln(), tau_hi_s.ln());
     let n = (((b - a) / std::f64::consts::LN_10) * 200.0)
         .ceil()
         .max(1.0) as usize;
     let h = (b - a) / n as f64;
-    let mut area = 0.0;
-    for e in elements {
-        if e.gamma_ohm(1.0).is_some() {
-            area += (0..n)
+    elements
+        .iter()
+        .filter(|e| e.gamma_ohm(1.0).is_some())
+        .map(|e| {
+            (0..n)
                 .map(|i| e.gamma_ohm((a + h * (i as f64 + 0.5)).exp()).unwrap_or(0.0) * h)
-                .sum::<f64>();
-        }
-        area += e
-            .lines(40)
+                .sum::<f64>()
+        })
+        .sum()
+}
+
+/// Area of the DRT of `elements` between `tau_lo_s` and `tau_hi_s` (ohm):
+/// the continuous parts ([`continuous_area`]) and the lines (Voigt,
+/// Warburg: 40 terms) that fall inside.
+fn model_area(elements: &[Element], tau_lo_s: f64, tau_hi_s: f64) -> f64 {
+    continuous_area(elements, tau_lo_s, tau_hi_s)
+        + elements
             .iter()
+            .flat_map(|e| e.lines(40))
             .filter(|(t, _)| *t >= tau_lo_s && *t <= tau_hi_s)
             .map(|(_, r)| r)
-            .sum::<f64>();
-    }
-    area
+            .sum::<f64>()
 }
 
 /// The characteristic time of a process element (s), for ordering.
@@ -363,7 +380,21 @@ fn fit_ordered(data: &FitData, start: &[Element], opts: &FitOptions) -> Result<C
     for (&slot, e) in procs.iter().zip(sorted) {
         again[slot] = e;
     }
-    fit_circuit(data, &again, &[], opts)
+    // The ordered refit starts at the same minimum; should it fail, the
+    // first fit stands.
+    Ok(fit_circuit(data, &again, &[], opts).unwrap_or(fit))
+}
+
+/// Gives the processes (in ascending tau) the peak tags in ascending tau
+/// of their peaks, so that the i-th process is read with the i-th peak
+/// after a fit that traded roles (untagged processes keep their places).
+fn retag(procs: &mut [(Element, Option<usize>)], peaks: &[PeakShape]) {
+    let mut tags: Vec<usize> = procs.iter().filter_map(|p| p.1).collect();
+    tags.sort_by(|&a, &b| peaks[a].tau_s.total_cmp(&peaks[b].tau_s));
+    let mut it = tags.into_iter();
+    for p in procs.iter_mut().filter(|p| p.1.is_some()) {
+        p.1 = it.next();
+    }
 }
 
 /// Builds and fits the candidates for the spectrum `data` from its DRT
@@ -377,11 +408,6 @@ pub fn propose(data: &FitData, drt: &Distribution, opts: &ProposeOptions) -> Res
         });
     }
     let peaks = peak_shapes(drt);
-    if peaks.is_empty() {
-        return Err(Error::Data(
-            "the DRT has no peak: there is no process to build a circuit from".into(),
-        ));
-    }
     let mut warnings = Vec::new();
     // Series terms from the inversion.
     let r_inf = drt
@@ -416,6 +442,24 @@ pub fn propose(data: &FitData, drt: &Distribution, opts: &ProposeOptions) -> Res
         }
         (e, tags)
     };
+    // The series terms alone: the candidate of no process, so that BIC can
+    // refuse the first one too (a spectrum of a resistor and noise).
+    {
+        let (zero, tags) = assemble(&[]);
+        match fit_circuit(data, &zero, &[], &opts.fit) {
+            Ok(fit) => candidates.push(Candidate {
+                processes: 0,
+                variants: vec![Variant {
+                    kinds: zero.iter().map(|e| e.kind().name()).collect(),
+                    bic: Some(fit.bic),
+                }],
+                fit,
+                peak_of: tags,
+                splits: 0,
+            }),
+            Err(e) => warnings.push(format!("0 processes: fit failed: {e}")),
+        }
+    }
     for _k in 1..=opts.max_processes {
         // The peak the current model explains least.
         let current: Vec<Element> = procs.iter().map(|(e, _)| *e).collect();
@@ -475,6 +519,7 @@ pub fn propose(data: &FitData, drt: &Distribution, opts: &ProposeOptions) -> Res
             break;
         };
         procs.clone_from(&starts[si]);
+        retag(&mut procs, &peaks);
         let (_, tags) = assemble(&procs);
         variants.push(Variant {
             kinds: start.iter().map(|e| e.kind().name()).collect(),
@@ -544,10 +589,11 @@ pub fn propose(data: &FitData, drt: &Distribution, opts: &ProposeOptions) -> Res
         .min_by(|&a, &b| score(&candidates[a]).total_cmp(&score(&candidates[b])))
         .unwrap_or(0);
     let best_bic = candidates[chosen].fit.bic;
+    let best_score = score(&candidates[chosen]);
     let close: Vec<usize> = (0..candidates.len())
-        .filter(|&i| i != chosen && candidates[i].fit.bic - best_bic < opts.bic_close)
+        .filter(|&i| i != chosen && score(&candidates[i]) - best_score < opts.bic_close)
         .collect();
-    if chosen + 1 == candidates.len() && peaks.len() > candidates.len() {
+    if chosen + 1 == candidates.len() && used.iter().any(|u| !u) {
         warnings.push(format!(
             "the largest candidate ({} processes) is the best and the DRT has {} peaks: more processes may be present (raise the maximum)",
             candidates[chosen].processes,

@@ -8,7 +8,9 @@ use super::output::{FORMATS, output_set, report_run};
 use anyhow::{Result, bail};
 use std::path::{Path, PathBuf};
 use taumap::circuit::fit::{FitData, FitOptions, fit_circuit};
-use taumap::circuit::propose::{Candidate, ProposeOptions, Selection, peak_shapes, propose};
+use taumap::circuit::propose::{
+    Candidate, ProposeOptions, Selection, continuous_area, peak_shapes, propose,
+};
 use taumap::circuit::{Model, Series};
 use taumap::io::Spectrum;
 use taumap::io::spectrum::read_spectrum_with;
@@ -62,7 +64,14 @@ pub fn run(a: &ModelArgs) -> Result<()> {
         &a.input,
     )?;
     let sel = match &start {
-        Some(m) => fit_start(&data, m, &inv.drt)?,
+        Some(m) => fit_start(&data, m, &inv.drt).map_err(|e| {
+            let path = a.start.as_deref().unwrap_or(Path::new("-"));
+            e.context(format!(
+                "fitting {} to {}",
+                path.display(),
+                a.input.display()
+            ))
+        })?,
         None => in_file(
             propose(
                 &data,
@@ -75,7 +84,17 @@ pub fn run(a: &ModelArgs) -> Result<()> {
             &a.input,
         )?,
     };
-    let warnings = plausibility(&sel, &inv.drt);
+    // The reader's doubts and the inversion's warnings first (the circuit
+    // fit inherits any fault of the data), then the fit's own.
+    let mut warnings: Vec<String> = layout
+        .imag_mostly_positive
+        .then(|| {
+            "the imaginary part is positive at most frequencies; taumap expects Z'' with its physical sign (negative when capacitive)".to_string()
+        })
+        .into_iter()
+        .collect();
+    warnings.extend(inv.drt.warnings.iter().map(|w| format!("inversion: {w}")));
+    warnings.extend(plausibility(&sel, &inv.drt));
     for w in &warnings {
         eprintln!("warning: {name}: {w}");
     }
@@ -108,10 +127,15 @@ pub fn run(a: &ModelArgs) -> Result<()> {
             for (i, c) in sel.candidates.iter().enumerate() {
                 writeln!(
                     w,
-                    "{} {} process{}: BIC {:.2} (delta {:+.2}), chi2 {:.4e}, noise {:.3} %{}",
+                    "{} {} process{}{}: BIC {:.2} (delta {:+.2}), chi2 {:.4e}, noise {:.3} %{}",
                     if i == sel.chosen { "*" } else { " " },
                     c.processes,
                     if c.processes == 1 { "" } else { "es" },
+                    match c.splits {
+                        0 => String::new(),
+                        1 => " (one split)".to_string(),
+                        n => format!(" ({n} splits)"),
+                    },
                     c.fit.bic,
                     c.fit.bic - sel.chosen().fit.bic,
                     c.fit.chi2,
@@ -186,6 +210,11 @@ fn fit_start(data: &FitData, model: &Model, drt: &Distribution) -> Result<Select
     })
 }
 
+/// Residual rms (relative to |Z|, per real residual) above which a fit
+/// is implausible whatever the DRT did: ten times the noise of a careful
+/// measurement (0.5 %, common practice).
+const CIRCUIT_RMS_WARN: f64 = 0.05;
+
 /// The proposal's and the chosen fit's warnings, and checks of the
 /// result: a circuit that fits much worse than the DRT (a process it
 /// lacks), parameters the data do not determine (standard error above the
@@ -207,6 +236,12 @@ fn plausibility(sel: &Selection, drt: &Distribution) -> Vec<String> {
             circuit_rms / drt.residual_rms_rel,
             100.0 * circuit_rms,
             100.0 * drt.residual_rms_rel
+        ));
+    }
+    if circuit_rms > CIRCUIT_RMS_WARN {
+        w.push(format!(
+            "the chosen circuit misses the data by {:.2} % rms (relative to |Z|): no candidate describes this spectrum; check the data (sign of Z'', units, Kramers-Kronig validity) before reading its values",
+            100.0 * circuit_rms
         ));
     }
     for (i, e) in c.fit.elements.iter().enumerate() {
@@ -286,7 +321,15 @@ fn add_figures(
     let model_tau: Vec<f64> = (0..n)
         .map(|i| (t0 + (t1 - t0) * i as f64 / (n - 1) as f64).exp())
         .collect();
-    let model_gamma: Vec<f64> = model_tau.iter().map(|&t| chosen.gamma_ohm(t)).collect();
+    // The mean over each cell of the dense grid: finite where gamma is not
+    // (a Gerischer element at tau0), equal to gamma where it is smooth.
+    let cell = (t1 - t0) / (n - 1) as f64;
+    let model_gamma: Vec<f64> = model_tau
+        .iter()
+        .map(|&t| {
+            continuous_area(&chosen.0, t * (-0.5 * cell).exp(), t * (0.5 * cell).exp()) / cell
+        })
+        .collect();
     let lines = chosen.lines(20);
     let step_ln = (t1 - t0) / (drt.tau_s.len() - 1).max(1) as f64;
     let drt_fig = plot::ModelDrtFigure {

@@ -229,3 +229,114 @@ fn start_model_is_fitted_and_checked() {
     );
     assert_clean_failure(&k, "max-processes", dir.path(), "k");
 }
+
+/// Faults of the data reach the model's warnings (stderr and
+/// summary.json): a spectrum with the sign of Z'' flipped gets the
+/// reader's warning, the inversion's and the circuit's own.
+#[test]
+fn warnings_of_the_data_are_passed_on() {
+    let dir = tempdir();
+    let flipped: String = crate::util::voigt_csv()
+        .lines()
+        .enumerate()
+        .map(|(i, l)| {
+            if i == 0 {
+                return format!("{l}\n");
+            }
+            let v: Vec<f64> = l.split(',').map(|x| x.parse().unwrap()).collect();
+            format!("{},{},{}\n", v[0], v[1], -v[2])
+        })
+        .collect();
+    std::fs::write(dir.path().join("flip.csv"), flipped).unwrap();
+    let run = taumap(
+        dir.path(),
+        &["model", "flip.csv", "--out", "f", "--no-plots"],
+    );
+    assert_eq!(run.code, 0, "{}", run.explain());
+    let s = read_json(&dir.path().join("f/summary.json"));
+    let w: Vec<&str> = s["warnings"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|x| x.as_str().unwrap())
+        .collect();
+    assert!(
+        w.iter().any(|x| x.contains("imaginary part is positive")),
+        "{w:?}"
+    );
+    assert!(w.iter().any(|x| x.starts_with("inversion: ")), "{w:?}");
+    assert!(w.iter().any(|x| x.contains("misses the data by")), "{w:?}");
+    assert!(
+        run.stderr.contains("warning: flip.csv: "),
+        "{}",
+        run.explain()
+    );
+}
+
+/// Starts far from the data: tau of 1 s for a process at 1 ms converges
+/// to the truth; tau of 1000 s leaves the process outside the band, the
+/// minimiser's steps to extreme values are rejected (not fatal), and the
+/// run ends with a result that says loudly it is not one.
+#[test]
+fn distant_starts_converge_or_warn() {
+    let dir = tempdir();
+    std::fs::write(dir.path().join("v.csv"), crate::util::voigt_csv()).unwrap();
+    std::fs::write(
+        dir.path().join("far.txt"),
+        "resistor r=1ohm\nvoigt r=20ohm tau=1s\n",
+    )
+    .unwrap();
+    let run = taumap(
+        dir.path(),
+        &[
+            "model",
+            "v.csv",
+            "--start",
+            "far.txt",
+            "--out",
+            "o",
+            "--no-plots",
+            "--json",
+        ],
+    );
+    assert_eq!(run.code, 0, "{}", run.explain());
+    let s: Value = serde_json::from_str(&run.stdout).unwrap();
+    let voigt = &s["candidates"][0]["elements"][1]["params"];
+    // voigt_csv: 50 ohm at 1 ms behind 10 ohm.
+    assert!(
+        (voigt[0]["value"].as_f64().unwrap() / 50.0 - 1.0).abs() < 1e-3,
+        "{voigt}"
+    );
+    assert!(
+        (voigt[1]["value"].as_f64().unwrap() / 1e-3 - 1.0).abs() < 1e-3,
+        "{voigt}"
+    );
+    assert!(
+        s["warnings"].as_array().unwrap().is_empty(),
+        "{}",
+        s["warnings"]
+    );
+
+    std::fs::write(
+        dir.path().join("lost.txt"),
+        "resistor r=1ohm\nvoigt r=20ohm tau=1ks\n",
+    )
+    .unwrap();
+    let run = taumap(
+        dir.path(),
+        &[
+            "model",
+            "v.csv",
+            "--start",
+            "lost.txt",
+            "--out",
+            "l",
+            "--no-plots",
+            "--json",
+        ],
+    );
+    assert_eq!(run.code, 0, "{}", run.explain());
+    let s: Value = serde_json::from_str(&run.stdout).unwrap();
+    let w = s["warnings"].to_string();
+    assert!(w.contains("misses the data by"), "{w}");
+}
