@@ -48,6 +48,7 @@ use super::element::Element;
 use super::fit::{CircuitFit, FitData, FitOptions, fit_circuit};
 use crate::pipeline::Distribution;
 use crate::{Error, Result};
+use rayon::prelude::*;
 use std::f64::consts::PI;
 
 /// Options of the proposal.
@@ -499,9 +500,18 @@ pub fn propose(data: &FitData, drt: &Distribution, opts: &ProposeOptions) -> Res
         let mut variants = Vec::new();
         let mut best: Option<(CircuitFit, Vec<Element>, usize)> = None;
         let mut failure = None;
-        for (si, st) in starts.iter().enumerate() {
-            let (elements, _) = assemble(st);
-            match fit_ordered(data, &elements, &opts.fit) {
+        // The starts are fitted in parallel and compared in their order:
+        // the same choice for any number of threads.
+        let fits: Vec<(Vec<Element>, Result<CircuitFit>)> = starts
+            .par_iter()
+            .map(|st| {
+                let (elements, _) = assemble(st);
+                let fit = fit_ordered(data, &elements, &opts.fit);
+                (elements, fit)
+            })
+            .collect();
+        for (si, (elements, fit)) in fits.into_iter().enumerate() {
+            match fit {
                 Ok(f) => {
                     if best.as_ref().is_none_or(|(b, _, _)| f.bic < b.bic) {
                         best = Some((f, elements, si));
@@ -537,13 +547,22 @@ pub fn propose(data: &FitData, drt: &Distribution, opts: &ProposeOptions) -> Res
             for i in 0..procs.len() {
                 let fitted: Vec<Element> = best.circuit();
                 let shape = procs[i].1.map(|p| &peaks[p]);
-                for alt in alternatives(&fitted[offset + i], shape, i + 1 == procs.len()) {
-                    let mut trial = fitted.clone();
-                    trial[offset + i] = alt;
-                    if !tried.insert(trial.iter().map(Element::kind).collect::<Vec<_>>()) {
-                        continue;
-                    }
-                    let r = fit_ordered(data, &trial, &opts.fit);
+                let trials: Vec<Vec<Element>> =
+                    alternatives(&fitted[offset + i], shape, i + 1 == procs.len())
+                        .into_iter()
+                        .map(|alt| {
+                            let mut trial = fitted.clone();
+                            trial[offset + i] = alt;
+                            trial
+                        })
+                        .filter(|t| tried.insert(t.iter().map(Element::kind).collect::<Vec<_>>()))
+                        .collect();
+                // In parallel, then taken in order (thread-count independent).
+                let results: Vec<Result<CircuitFit>> = trials
+                    .par_iter()
+                    .map(|t| fit_ordered(data, t, &opts.fit))
+                    .collect();
+                for (trial, r) in trials.iter().zip(results) {
                     variants.push(Variant {
                         kinds: trial.iter().map(|e| e.kind().name()).collect(),
                         bic: r.as_ref().ok().map(|f| f.bic),

@@ -16,7 +16,7 @@ use super::axis::{self, Axis, Extent, Scale};
 use super::bode::{magnitude, phase_deg};
 use super::common::{self, Chart, DrawResult, Paint, Panel};
 use super::draw::{self, Key, Mark};
-use super::nyquist::equal_scale_ranges;
+use super::nyquist::nyquist_panel;
 use super::series::TRACK_COLORS;
 use crate::Result;
 
@@ -252,28 +252,7 @@ impl Paint for ModelNyquist<'_> {
     fn paint<DB: DrawingBackend>(&self, root: &DrawingArea<DB, Shift>) -> DrawResult<()> {
         let fig = self.fig;
         let area = common::titled(root, fig.title)?;
-        let linear = |(lo, hi): (f64, f64)| Axis {
-            scale: Scale::Linear,
-            lo,
-            hi,
-        };
-        let mut panel = Panel {
-            x: linear(self.x),
-            y: linear(self.y),
-            x_desc: Some("Z' (ohm)"),
-            y_desc: "-Z'' (ohm)",
-            caption: None,
-            x_ticks: 10,
-            y_ticks: 7,
-            common_step: None,
-            key_room: false,
-        };
-        let (w, h) = common::plot_size(&area, &panel)?;
-        let (x, y) = equal_scale_ranges(self.x, self.y, w, h);
-        let step = axis::nice_step(x.1 - x.0, 10).max(axis::nice_step(y.1 - y.0, 7));
-        panel.x = linear(x);
-        panel.y = linear(y);
-        panel.common_step = Some(step);
+        let panel = nyquist_panel(&area, self.x, self.y)?;
         let mut chart = common::build_panel(&area, &panel)?;
         let axes = (&panel.x, &panel.y);
         draw::draw_zero_line(&mut chart, axes.0, axes.1)?;

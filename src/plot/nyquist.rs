@@ -104,31 +104,43 @@ impl<'a> NyquistPlot<'a> {
     }
 }
 
+/// The panel of a Nyquist plot in `area`: Z' against -Z'' on linear axes
+/// with the data ranges `x` and `y` widened to equal scales (one ohm is
+/// as long on both axes) and one tick step for both.
+pub(crate) fn nyquist_panel<DB: DrawingBackend>(
+    area: &DrawingArea<DB, Shift>,
+    x: (f64, f64),
+    y: (f64, f64),
+) -> DrawResult<Panel<'static>> {
+    let linear = |(lo, hi): (f64, f64)| Axis {
+        scale: Scale::Linear,
+        lo,
+        hi,
+    };
+    let mut panel = Panel {
+        x: linear(x),
+        y: linear(y),
+        x_desc: Some("Z' (ohm)"),
+        y_desc: "-Z'' (ohm)",
+        caption: None,
+        x_ticks: 10,
+        y_ticks: 7,
+        common_step: None,
+        key_room: false,
+    };
+    let (w, h) = common::plot_size(area, &panel)?;
+    let (x, y) = equal_scale_ranges(x, y, w, h);
+    let step = axis::nice_step(x.1 - x.0, 10).max(axis::nice_step(y.1 - y.0, 7));
+    panel.x = linear(x);
+    panel.y = linear(y);
+    panel.common_step = Some(step);
+    Ok(panel)
+}
+
 impl Paint for NyquistPlot<'_> {
     fn paint<DB: DrawingBackend>(&self, root: &DrawingArea<DB, Shift>) -> DrawResult<()> {
         let area = common::titled(root, self.fig.title)?;
-        let linear = |(lo, hi): (f64, f64)| Axis {
-            scale: Scale::Linear,
-            lo,
-            hi,
-        };
-        let mut panel = Panel {
-            x: linear(self.x),
-            y: linear(self.y),
-            x_desc: Some("Z' (ohm)"),
-            y_desc: "-Z'' (ohm)",
-            caption: None,
-            x_ticks: 10,
-            y_ticks: 7,
-            common_step: None,
-            key_room: false,
-        };
-        let (w, h) = common::plot_size(&area, &panel)?;
-        let (x, y) = equal_scale_ranges(self.x, self.y, w, h);
-        let step = axis::nice_step(x.1 - x.0, 10).max(axis::nice_step(y.1 - y.0, 7));
-        panel.x = linear(x);
-        panel.y = linear(y);
-        panel.common_step = Some(step);
+        let panel = nyquist_panel(&area, self.x, self.y)?;
         let mut chart = common::build_panel(&area, &panel)?;
         let (x, y) = (&panel.x, &panel.y);
         draw::draw_zero_line(&mut chart, x, y)?;

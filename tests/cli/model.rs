@@ -340,3 +340,38 @@ fn distant_starts_converge_or_warn() {
     let w = s["warnings"].to_string();
     assert!(w.contains("misses the data by"), "{w}");
 }
+
+/// The candidates are fitted in parallel: the outputs are byte-identical
+/// for 1 and 3 threads.
+#[test]
+fn output_is_the_same_for_any_thread_count() {
+    let dir = tempdir();
+    let input = repo_root().join("demo-data/button-cell-700c.csv");
+    let mut outputs = Vec::new();
+    for threads in ["1", "3"] {
+        let out = format!("t{threads}");
+        let status = std::process::Command::new(env!("CARGO_BIN_EXE_taumap"))
+            .args([
+                "model",
+                input.to_str().unwrap(),
+                "--out",
+                &out,
+                "--no-plots",
+            ])
+            .env("RAYON_NUM_THREADS", threads)
+            .current_dir(dir.path())
+            .output()
+            .unwrap();
+        assert!(status.status.success());
+        let read = |f: &str| std::fs::read(dir.path().join(&out).join(f)).unwrap();
+        outputs.push((
+            read("summary.json"),
+            read("model.txt"),
+            read("parameters.csv"),
+        ));
+    }
+    assert!(
+        outputs[0] == outputs[1],
+        "outputs differ between 1 and 3 threads"
+    );
+}
