@@ -12,11 +12,11 @@ use plotters::coord::Shift;
 use plotters::prelude::*;
 
 use super::ImageFormat;
-use super::axis::{self, Axis, Extent, Scale};
+use super::axis::{Axis, Extent, Scale};
 use super::bode::{magnitude, phase_deg};
 use super::common::{self, Chart, DrawResult, Paint, Panel};
 use super::draw::{self, Key, Mark};
-use super::nyquist::nyquist_panel;
+use super::nyquist::{nyquist_panel, nyquist_ranges};
 use super::series::TRACK_COLORS;
 use crate::Result;
 
@@ -213,30 +213,11 @@ impl<'a> ModelNyquist<'a> {
         check_fit_figure(fig)?;
         let data_up = negated(fig.z_im_ohm);
         let curves_up: Vec<Vec<f64>> = fig.curves.iter().map(|c| negated(c.z_im_ohm)).collect();
-        let (mut xe, mut ye) = (Extent::new(Scale::Linear), Extent::new(Scale::Linear));
         let curves = fig.curves.iter().zip(&curves_up);
-        let series = std::iter::once((fig.z_re_ohm, data_up.as_slice()))
-            .chain(curves.map(|(c, up)| (c.z_re_ohm, up.as_slice())));
-        for (re, up) in series {
-            for (&a, &b) in re.iter().zip(up) {
-                if a.is_finite() && b.is_finite() {
-                    xe.add(a);
-                    ye.add(b);
-                }
-            }
-        }
-        let x = xe
-            .raw()
-            .ok_or("no impedance point with finite real and imaginary parts")?;
-        ye.add(0.0);
-        let y = ye.raw().ok_or("no finite imaginary part")?;
-        let (x, y) = (
-            axis::pad(Scale::Linear, x.0, x.1),
-            axis::pad(Scale::Linear, y.0, y.1),
-        );
-        if !(x.1 - x.0).is_finite() || !(y.1 - y.0).is_finite() {
-            return Err("impedance values are too large to plot".into());
-        }
+        let (x, y) = nyquist_ranges(
+            std::iter::once((fig.z_re_ohm, data_up.as_slice()))
+                .chain(curves.map(|(c, up)| (c.z_re_ohm, up.as_slice()))),
+        )?;
         Ok(Self {
             fig,
             data_up,

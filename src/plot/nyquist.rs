@@ -74,26 +74,10 @@ impl<'a> NyquistPlot<'a> {
         common::same_len("fit_im_ohm", fig.fit_im_ohm, "fit_re_ohm", fig.fit_re_ohm)?;
         let data_up: Vec<f64> = fig.z_im_ohm.iter().map(|v| -v).collect();
         let fit_up: Vec<f64> = fig.fit_im_ohm.iter().map(|v| -v).collect();
-        let (mut xe, mut ye) = (Extent::new(Scale::Linear), Extent::new(Scale::Linear));
-        let pairs = fig.z_re_ohm.iter().zip(&data_up);
-        for (&a, &b) in pairs.chain(fig.fit_re_ohm.iter().zip(&fit_up)) {
-            if a.is_finite() && b.is_finite() {
-                xe.add(a);
-                ye.add(b);
-            }
-        }
-        let x = xe
-            .raw()
-            .ok_or("no impedance point with finite real and imaginary parts")?;
-        ye.add(0.0);
-        let y = ye.raw().ok_or("no finite imaginary part")?;
-        let (x, y) = (
-            axis::pad(Scale::Linear, x.0, x.1),
-            axis::pad(Scale::Linear, y.0, y.1),
-        );
-        if !(x.1 - x.0).is_finite() || !(y.1 - y.0).is_finite() {
-            return Err("impedance values are too large to plot".into());
-        }
+        let (x, y) = nyquist_ranges([
+            (fig.z_re_ohm, data_up.as_slice()),
+            (fig.fit_re_ohm, fit_up.as_slice()),
+        ])?;
         Ok(Self {
             fig,
             data_up,
@@ -102,6 +86,36 @@ impl<'a> NyquistPlot<'a> {
             y,
         })
     }
+}
+
+/// The padded ranges of Z' and -Z'' (the latter with 0) over the finite
+/// points of every `(z_re, minus_z_im)` series, for a Nyquist panel
+/// ([`nyquist_panel`]).
+pub(crate) fn nyquist_ranges<'s>(
+    series: impl IntoIterator<Item = (&'s [f64], &'s [f64])>,
+) -> DrawResult<((f64, f64), (f64, f64))> {
+    let (mut xe, mut ye) = (Extent::new(Scale::Linear), Extent::new(Scale::Linear));
+    for (re, up) in series {
+        for (&a, &b) in re.iter().zip(up) {
+            if a.is_finite() && b.is_finite() {
+                xe.add(a);
+                ye.add(b);
+            }
+        }
+    }
+    let x = xe
+        .raw()
+        .ok_or("no impedance point with finite real and imaginary parts")?;
+    ye.add(0.0);
+    let y = ye.raw().ok_or("no finite imaginary part")?;
+    let (x, y) = (
+        axis::pad(Scale::Linear, x.0, x.1),
+        axis::pad(Scale::Linear, y.0, y.1),
+    );
+    if !(x.1 - x.0).is_finite() || !(y.1 - y.0).is_finite() {
+        return Err("impedance values are too large to plot".into());
+    }
+    Ok((x, y))
 }
 
 /// The panel of a Nyquist plot in `area`: Z' against -Z'' on linear axes
