@@ -13,27 +13,11 @@ use taumap::circuit::fit::{FitData, FitOptions, fit_circuit};
 use taumap::circuit::propose::{ProposeOptions, propose};
 use taumap::io::Spectrum;
 use taumap::pipeline::{InvertParams, invert};
-use taumap::synth::{Element, Series, add_noise, log_frequencies};
+use taumap::synth::{Series, add_noise, cells, log_frequencies};
 
+/// The demo cell (`cells::demo_button_cell`).
 fn cell() -> Series {
-    Series(vec![
-        Element::Resistor { r_ohm: 0.150 },
-        Element::Inductor { l_h: 8.0e-8 },
-        Element::Zarc {
-            r_ohm: 0.080,
-            tau_s: 2.0e-5,
-            phi: 0.85,
-        },
-        Element::Zarc {
-            r_ohm: 0.120,
-            tau_s: 1.0e-3,
-            phi: 0.95,
-        },
-        Element::WarburgFinite {
-            r_ohm: 0.050,
-            tau_s: 0.5,
-        },
-    ])
+    cells::demo_button_cell()
 }
 
 fn model_benches(c: &mut Criterion) {

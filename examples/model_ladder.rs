@@ -5,44 +5,12 @@
 //! `cargo run --release --example model_ladder [NOISE_REL] [SEEDS]`
 //! (defaults 0.005 and 5 seeds per count: 20 spectra).
 
-use rand::{RngExt, SeedableRng};
-use rand_chacha::ChaCha8Rng;
 use std::time::Instant;
 use taumap::circuit::fit::FitData;
 use taumap::circuit::propose::{ProposeOptions, propose};
 use taumap::io::Spectrum;
 use taumap::pipeline::{InvertParams, invert};
-use taumap::synth::{Element, Series, add_noise, log_frequencies};
-
-/// The ladder's circuit with `processes` processes for `seed`: a series
-/// resistor, then processes from fast to slow with time constants 1.4 to
-/// 2.2 decades apart starting near 10 us, resistances 0.5-2 x 10 mOhm;
-/// each process a Voigt element, a ZARC (phi 0.7-0.95) or, for the slowest
-/// one, a transmissive finite Warburg element.
-pub fn ladder_cell(processes: usize, seed: u64) -> Series {
-    let mut rng = ChaCha8Rng::seed_from_u64(seed * 1000 + processes as u64);
-    let mut e = vec![Element::Resistor { r_ohm: 0.02 }];
-    let mut log_tau = -5.0 + rng.random_range(-0.3..0.3);
-    for k in 0..processes {
-        let r_ohm = 0.01 * 10f64.powf(rng.random_range(-0.3..0.3));
-        let tau_s = 10f64.powf(log_tau);
-        let pick = rng.random_range(0..3u32);
-        e.push(match pick {
-            0 => Element::Voigt { r_ohm, tau_s },
-            2 if k + 1 == processes && processes > 1 => Element::WarburgFinite {
-                r_ohm,
-                tau_s: tau_s * 2.5,
-            },
-            _ => Element::Zarc {
-                r_ohm,
-                tau_s,
-                phi: rng.random_range(0.7..0.95),
-            },
-        });
-        log_tau += rng.random_range(1.4..2.2);
-    }
-    Series(e)
-}
+use taumap::synth::{add_noise, cells, log_frequencies};
 
 fn main() -> Result<(), Box<dyn std::error::Error>> {
     let args: Vec<String> = std::env::args().collect();
@@ -53,7 +21,7 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
     let mut total = 0;
     for processes in 1..=4 {
         for seed in 0..seeds {
-            let cell = ladder_cell(processes, seed);
+            let cell = cells::model_ladder(processes, seed);
             let (mut re, mut im) = cell.sample(&f);
             add_noise(&mut re, &mut im, noise, seed + 7);
             let t0 = Instant::now();

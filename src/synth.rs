@@ -166,6 +166,62 @@ pub mod cells {
             },
         ])
     }
+
+    /// The invented solid-oxide button cell of the demo (`taumap demo`):
+    /// R_inf 0.150 ohm, lead inductance 80 nH, ZARC (0.080 ohm, 20 us,
+    /// 0.85), ZARC (0.120 ohm, 1 ms, 0.95), finite Warburg (0.050 ohm,
+    /// 0.5 s). Illustrative values, not a measurement.
+    pub fn demo_button_cell() -> Series {
+        Series(vec![
+            Element::Resistor { r_ohm: 0.150 },
+            Element::Inductor { l_h: 8.0e-8 },
+            Element::Zarc {
+                r_ohm: 0.080,
+                tau_s: 2.0e-5,
+                phi: 0.85,
+            },
+            Element::Zarc {
+                r_ohm: 0.120,
+                tau_s: 1.0e-3,
+                phi: 0.95,
+            },
+            Element::WarburgFinite {
+                r_ohm: 0.050,
+                tau_s: 0.5,
+            },
+        ])
+    }
+
+    /// The circuit of the `taumap model` ladder (tests/model.rs,
+    /// examples/model_ladder.rs) with `processes` processes for `seed`: a
+    /// 20 mOhm series resistor, then processes from fast to slow, 1.4 to 2.2
+    /// decades apart from about 10 us, 5-20 mOhm each; each a Voigt
+    /// element, a ZARC (phi 0.7-0.95) or, for the slowest of several, a
+    /// transmissive finite Warburg element.
+    pub fn model_ladder(processes: usize, seed: u64) -> Series {
+        use rand::{RngExt, SeedableRng};
+        let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(seed * 1000 + processes as u64);
+        let mut e = vec![Element::Resistor { r_ohm: 0.02 }];
+        let mut log_tau = -5.0 + rng.random_range(-0.3..0.3);
+        for k in 0..processes {
+            let r_ohm = 0.01 * 10f64.powf(rng.random_range(-0.3..0.3));
+            let tau_s = 10f64.powf(log_tau);
+            e.push(match rng.random_range(0..3u32) {
+                0 => Element::Voigt { r_ohm, tau_s },
+                2 if k + 1 == processes && processes > 1 => Element::WarburgFinite {
+                    r_ohm,
+                    tau_s: tau_s * 2.5,
+                },
+                _ => Element::Zarc {
+                    r_ohm,
+                    tau_s,
+                    phi: rng.random_range(0.7..0.95),
+                },
+            });
+            log_tau += rng.random_range(1.4..2.2);
+        }
+        Series(e)
+    }
 }
 
 /// The reference sampling of the tests and benchmarks: 1e-2 to 1e6 Hz at 10

@@ -2,13 +2,11 @@
 //! count chosen by BIC, the accuracy of the CNLS fit, and the honesty of
 //! its standard errors, on spectra simulated from analytical elements.
 
-use rand::{RngExt, SeedableRng};
-use rand_chacha::ChaCha8Rng;
 use taumap::circuit::fit::{FitData, FitOptions, fit_circuit};
 use taumap::circuit::propose::{ProposeOptions, Selection, propose};
 use taumap::io::Spectrum;
 use taumap::pipeline::{InvertParams, invert};
-use taumap::synth::{Element, Series, add_noise, log_frequencies};
+use taumap::synth::{Element, Series, add_noise, cells, log_frequencies};
 
 /// 81 frequencies, 10 mHz to 1 MHz, 10 per decade.
 fn frequencies() -> Vec<f64> {
@@ -29,33 +27,10 @@ fn select(f: &[f64], re: &[f64], im: &[f64]) -> Selection {
     propose(&data, &inv.drt, &ProposeOptions::default()).unwrap()
 }
 
-/// The ladder's circuit with `processes` processes: a series resistor,
-/// then processes from fast to slow, 1.4 to 2.2 decades apart from about
-/// 10 us, 5-20 mOhm each; each a Voigt element, a ZARC (phi 0.7-0.95) or,
-/// for the slowest of several, a transmissive finite Warburg element
-/// (the same generator as examples/model_ladder.rs).
+/// The ladder's circuit (`cells::model_ladder`, shared with
+/// examples/model_ladder.rs).
 fn ladder_cell(processes: usize, seed: u64) -> Series {
-    let mut rng = ChaCha8Rng::seed_from_u64(seed * 1000 + processes as u64);
-    let mut e = vec![Element::Resistor { r_ohm: 0.02 }];
-    let mut log_tau = -5.0 + rng.random_range(-0.3..0.3);
-    for k in 0..processes {
-        let r_ohm = 0.01 * 10f64.powf(rng.random_range(-0.3..0.3));
-        let tau_s = 10f64.powf(log_tau);
-        e.push(match rng.random_range(0..3u32) {
-            0 => Element::Voigt { r_ohm, tau_s },
-            2 if k + 1 == processes && processes > 1 => Element::WarburgFinite {
-                r_ohm,
-                tau_s: tau_s * 2.5,
-            },
-            _ => Element::Zarc {
-                r_ohm,
-                tau_s,
-                phi: rng.random_range(0.7..0.95),
-            },
-        });
-        log_tau += rng.random_range(1.4..2.2);
-    }
-    Series(e)
+    cells::model_ladder(processes, seed)
 }
 
 /// 1 to 4 processes, 5 circuits each (20 spectra, fixed seeds), 0.5 %

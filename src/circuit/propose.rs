@@ -462,14 +462,17 @@ pub fn propose(data: &FitData, drt: &Distribution, opts: &ProposeOptions) -> Res
         }
     }
     for _k in 1..=opts.max_processes {
-        // The peak the current model explains least.
+        // The peak the current model explains least (its area minus the
+        // model's DRT area over its region, computed once per peak).
         let current: Vec<Element> = procs.iter().map(|(e, _)| *e).collect();
-        let next = (0..peaks.len()).filter(|&i| !used[i]).max_by(|&a, &b| {
-            let un = |i: usize| {
-                peaks[i].r_ohm - model_area(&current, peaks[i].tau_lo_s, peaks[i].tau_hi_s)
-            };
-            un(a).total_cmp(&un(b))
-        });
+        let next = (0..peaks.len())
+            .filter(|&i| !used[i])
+            .map(|i| {
+                let p = &peaks[i];
+                (i, p.r_ohm - model_area(&current, p.tau_lo_s, p.tau_hi_s))
+            })
+            .max_by(|a, b| a.1.total_cmp(&b.1))
+            .map(|(i, _)| i);
         let starts: Vec<Vec<(Element, Option<usize>)>> = if let Some(next) = next {
             used[next] = true;
             procs.push((zarc_seed(&peaks[next]), Some(next)));

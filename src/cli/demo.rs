@@ -83,26 +83,10 @@ pub fn demo_cell_after(cycle: usize) -> Series {
 /// Open-circuit voltage before the pulse (V).
 const OPEN_CIRCUIT_V: f64 = 1.05;
 
-/// The demo cell as a series of analytical elements.
+/// The demo cell as a series of analytical elements
+/// ([`taumap::synth::cells::demo_button_cell`], shared with the benchmarks).
 pub fn demo_cell() -> Series {
-    Series(vec![
-        Element::Resistor { r_ohm: 0.150 },
-        Element::Inductor { l_h: 8.0e-8 },
-        Element::Zarc {
-            r_ohm: 0.080,
-            tau_s: 2.0e-5,
-            phi: 0.85,
-        },
-        Element::Zarc {
-            r_ohm: 0.120,
-            tau_s: 1.0e-3,
-            phi: 0.95,
-        },
-        Element::WarburgFinite {
-            r_ohm: 0.050,
-            tau_s: 0.5,
-        },
-    ])
+    taumap::synth::cells::demo_button_cell()
 }
 
 /// The demo spectrum: 0.1 Hz to 100 kHz, 10 points per decade, seed 2026.
